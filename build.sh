@@ -1,0 +1,159 @@
+#!/usr/bin/env bash
+# Forefield build entry point. Every subcommand installs what it is missing, idempotently.
+#   ./build.sh serve   build the wasm page and serve www/ on 127.0.0.1 (PORT, default 8765)
+#   ./build.sh test    formatting, lints (native and wasm), all Rust tests, wasm build, browser tests
+#   ./build.sh sample  regenerate the committed demo grids in sample-grids/
+#   ./build.sh bench   native and in-browser benchmarks, printed as JSON lines
+set -euo pipefail
+
+cd "$(dirname "$0")"
+ROOT="$(pwd)"
+WASM_TARGET=wasm32-unknown-unknown
+PORT="${PORT:-8765}"
+
+say() { printf '\n==> %s\n' "$*"; }
+
+wasm_bindgen_version() {
+    # The CLI must match the crate exactly; Cargo.lock pins the crate.
+    awk '/^name = "wasm-bindgen"$/ { getline; gsub(/[^0-9.]/, ""); print; exit }' Cargo.lock
+}
+
+ensure_wasm_toolchain() {
+    if ! rustup target list --installed | grep -qx "$WASM_TARGET"; then
+        say "adding Rust target $WASM_TARGET"
+        rustup target add "$WASM_TARGET"
+    fi
+    local want have
+    want="$(wasm_bindgen_version)"
+    have="$(wasm-bindgen --version 2>/dev/null | awk '{print $2}' || true)"
+    if [ "$have" != "$want" ]; then
+        say "installing wasm-bindgen-cli $want (found '${have:-none}')"
+        cargo install wasm-bindgen-cli --version "$want"
+    fi
+}
+
+ensure_chromium() {
+    if [ ! -x /usr/bin/chromium ]; then
+        say "installing Debian chromium"
+        if [ "$(id -u)" -eq 0 ]; then
+            apt-get update && apt-get install -y chromium
+        else
+            sudo apt-get update && sudo apt-get install -y chromium
+        fi
+    fi
+}
+
+ensure_node_deps() {
+    if [ ! -d tests/browser/node_modules/playwright-core ]; then
+        say "installing browser-test dependencies (npm ci)"
+        (cd tests/browser && npm ci --no-audit --no-fund)
+    fi
+}
+
+build_wasm() {
+    ensure_wasm_toolchain
+    say "building release wasm (simd128)"
+    CARGO_TARGET_WASM32_UNKNOWN_UNKNOWN_RUSTFLAGS="-C target-feature=+simd128 -D warnings" \
+        cargo build --release --target "$WASM_TARGET" -p forefield-wasm
+    say "generating www/pkg with wasm-bindgen"
+    wasm-bindgen --target web --no-typescript --out-dir www/pkg \
+        "target/$WASM_TARGET/release/forefield_wasm.wasm"
+    rm -rf www/sample-grids
+    mkdir -p www/sample-grids
+    cp sample-grids/*.tif sample-grids/*.json www/sample-grids/ 2>/dev/null || cp sample-grids/*.tif www/sample-grids/
+}
+
+build_cli() {
+    say "building the forefield command line (release)"
+    cargo build --release -p forefield-cli
+}
+
+# Starts the static server in the background and waits until it answers.
+start_server() {
+    local port="$1"
+    target/release/forefield serve --dir www --port "$port" >"target/serve-$port.log" 2>&1 &
+    SERVER_PID=$!
+    for _ in $(seq 1 50); do
+        if (exec 3<>"/dev/tcp/127.0.0.1/$port") 2>/dev/null; then return 0; fi
+        sleep 0.1
+    done
+    echo "server did not start; log:" >&2
+    cat "target/serve-$port.log" >&2
+    return 1
+}
+
+free_port() {
+    python3 -c 'import socket; s=socket.socket(); s.bind(("127.0.0.1",0)); print(s.getsockname()[1])' 2>/dev/null \
+        || echo 18765
+}
+
+cmd_serve() {
+    build_wasm
+    build_cli
+    say "open http://127.0.0.1:$PORT/"
+    exec target/release/forefield serve --dir www --port "$PORT"
+}
+
+cmd_test() {
+    local started
+    started=$(date +%s)
+    say "cargo fmt --check"
+    cargo fmt --all -- --check
+    say "clippy (native, all targets, -D warnings)"
+    cargo clippy --workspace --all-targets -- -D warnings
+    ensure_wasm_toolchain
+    say "clippy (wasm32, -D warnings)"
+    cargo clippy -p forefield-wasm -p forefield-engine --target "$WASM_TARGET" -- -D warnings
+    say "cargo test (workspace)"
+    cargo test --workspace
+    build_wasm
+    build_cli
+    ensure_chromium
+    ensure_node_deps
+    local port
+    port="$(free_port)"
+    start_server "$port"
+    trap 'kill $SERVER_PID 2>/dev/null || true' EXIT
+    say "browser tests (headless Debian chromium) against http://127.0.0.1:$port/"
+    (cd tests/browser && FOREFIELD_URL="http://127.0.0.1:$port/" node --test --test-concurrency=1)
+    kill "$SERVER_PID" 2>/dev/null || true
+    trap - EXIT
+    say "all tests passed in $(( $(date +%s) - started )) s"
+}
+
+cmd_sample() {
+    build_cli
+    say "writing the demo valley to sample-grids/"
+    target/release/forefield sample --out sample-grids
+}
+
+cmd_bench() {
+    build_wasm
+    build_cli
+    ensure_chromium
+    ensure_node_deps
+    if [ ! -f sample-grids/large/valley_dem.tif ]; then
+        say "generating the large benchmark valley (1024 x 1024) in sample-grids/large/"
+        target/release/forefield sample --size 1024 --out sample-grids/large
+    fi
+    say "native benchmark"
+    target/release/forefield bench --grids sample-grids/large
+    local port
+    port="$(free_port)"
+    rm -rf www/bench-grids && mkdir -p www/bench-grids && cp sample-grids/large/*.tif www/bench-grids/
+    start_server "$port"
+    trap 'kill $SERVER_PID 2>/dev/null || true; rm -rf "$ROOT/www/bench-grids"' EXIT
+    say "wasm benchmark (headless Debian chromium)"
+    (cd tests/browser && FOREFIELD_URL="http://127.0.0.1:$port/" node bench.mjs)
+}
+
+case "${1:-}" in
+    serve) cmd_serve ;;
+    test) cmd_test ;;
+    sample) cmd_sample ;;
+    bench) cmd_bench ;;
+    *)
+        echo "usage: ./build.sh serve|test|sample|bench" >&2
+        exit 2
+        ;;
+esac

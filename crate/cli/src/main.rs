@@ -1,0 +1,146 @@
+//! `forefield`: the native command line over the engine (sample data, grid info, static server).
+
+mod serve;
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+use anyhow::{bail, Context, Result};
+use forefield_engine::geotiff::{
+    read_geotiff, write_geotiff, write_geotiff_with, SampleType, TiffCompression, WriteOptions,
+};
+use forefield_engine::sample;
+
+const USAGE: &str = "\
+forefield: glacier retreat and plant colonisation scenarios for planners
+
+USAGE:
+    forefield sample [--size N] [--out DIR]   write the invented demo valley as GeoTIFFs
+                                              (default size 400 cells of 25 m, DIR sample-grids)
+    forefield info FILE.tif                   describe a GeoTIFF grid (size, georeference, range)
+    forefield serve [--dir DIR] [--port P]    serve a folder on 127.0.0.1 (default www, 8765)
+    forefield help                            this text
+
+Outputs are planning-level scenarios, not hazard assessments or forecasts; consult local
+authorities and qualified professionals about lakes, slopes and siting.";
+
+fn main() -> ExitCode {
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    match dispatch(&args) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(error) => {
+            eprintln!("forefield: error: {error:#}");
+            ExitCode::from(1)
+        }
+    }
+}
+
+fn dispatch(args: &[String]) -> Result<()> {
+    let Some(command) = args.first() else {
+        println!("{USAGE}");
+        return Ok(());
+    };
+    let rest = &args[1..];
+    match command.as_str() {
+        "sample" => write_sample(rest),
+        "info" => info(rest),
+        "serve" => {
+            let dir = PathBuf::from(flag(rest, "--dir")?.unwrap_or_else(|| "www".into()));
+            let port: u16 = match flag(rest, "--port")? {
+                Some(p) => p
+                    .parse()
+                    .with_context(|| format!("--port {p:?} is not a port number"))?,
+                None => 8765,
+            };
+            serve::serve(&dir, port)
+        }
+        "help" | "--help" | "-h" => {
+            println!("{USAGE}");
+            Ok(())
+        }
+        other => bail!("unknown command {other:?}\n\n{USAGE}"),
+    }
+}
+
+/// Value of `--name VALUE` in `args`, if given.
+fn flag(args: &[String], name: &str) -> Result<Option<String>> {
+    match args.iter().position(|a| a == name) {
+        None => Ok(None),
+        Some(i) => match args.get(i + 1) {
+            Some(value) => Ok(Some(value.clone())),
+            None => bail!("{name} needs a value"),
+        },
+    }
+}
+
+fn write_sample(args: &[String]) -> Result<()> {
+    let size: usize = match flag(args, "--size")? {
+        Some(s) => s
+            .parse()
+            .with_context(|| format!("--size {s:?} is not a whole number"))?,
+        None => sample::SMALL_SIZE,
+    };
+    if !(16..=2048).contains(&size) {
+        bail!("--size {size} is outside 16..=2048 cells");
+    }
+    let out = PathBuf::from(flag(args, "--out")?.unwrap_or_else(|| "sample-grids".into()));
+    std::fs::create_dir_all(&out).with_context(|| format!("creating {}", out.display()))?;
+    let valley = sample::generate(size);
+    let write = |name: &str, bytes: Vec<u8>| -> Result<()> {
+        let path = out.join(name);
+        std::fs::write(&path, bytes).with_context(|| format!("writing {}", path.display()))?;
+        println!("wrote {}", path.display());
+        Ok(())
+    };
+    write("valley_dem.tif", write_geotiff(&valley.surface_m))?;
+    write("valley_bed.tif", write_geotiff(&valley.bed_m))?;
+    write(
+        "valley_ice_thickness.tif",
+        write_geotiff(&valley.ice_thickness_m),
+    )?;
+    let codes = WriteOptions {
+        sample_type: SampleType::U8,
+        compression: TiffCompression::Deflate,
+        horizontal_predictor: false,
+    };
+    write(
+        "valley_vegetation.tif",
+        write_geotiff_with(&valley.vegetation, codes)?,
+    )?;
+    Ok(())
+}
+
+fn info(args: &[String]) -> Result<()> {
+    let Some(path) = args.first() else {
+        bail!("info needs a GeoTIFF file")
+    };
+    let path = Path::new(path);
+    let bytes = std::fs::read(path).with_context(|| format!("reading {}", path.display()))?;
+    let grid = read_geotiff(&bytes, &path.display().to_string())?;
+    let g = &grid.geometry;
+    println!("file: {}", path.display());
+    println!(
+        "size: {} x {} cells ({} cells)",
+        g.n_cols,
+        g.n_rows,
+        g.n_cells()
+    );
+    println!("cell size: {} m", g.cell_size_m);
+    println!(
+        "extent: west {} m, east {} m, south {} m, north {} m",
+        g.west_m,
+        g.east_m(),
+        g.south_m(),
+        g.north_m
+    );
+    println!(
+        "crs: {}",
+        g.epsg
+            .map_or("not stated".to_string(), |c| format!("EPSG:{c}"))
+    );
+    println!("nodata cells: {}", g.n_cells() - grid.n_valid());
+    if let Some((lo, hi)) = grid.value_range() {
+        println!("values: {lo} to {hi}");
+    }
+    Ok(())
+}

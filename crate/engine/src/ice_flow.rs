@@ -1,0 +1,643 @@
+//! Ice flow by the 2-D shallow-ice approximation with Glen's law (n = 3), in the staggered-grid
+//! flux form of Mahaffy (1976, J. Geophys. Res. 81(6):1059-1066), with an adaptive explicit
+//! time step and outflow limiting that keeps thickness non-negative on steep beds.
+//!
+//! dH/dt = M - div(q), q = -D grad(s), s = b + H,
+//! D = (Gamma H^5 + S H^3) |grad s|^2, Gamma = 2 A (rho g)^3 / 5 (Cuffey & Paterson 2010,
+//! ch. 8), S = f_s (rho g)^3 for Weertman-type sliding u_b = f_s tau_b^3 / (rho g H)
+//! (the form used by Budd, Keage & Blundy 1979; from memory).
+//!
+//! Scheme (the reference run of the project's science checks uses the same layout):
+//! thickness on cell centres; D at cell corners from the mean thickness and the surface
+//! gradient of the four surrounding cells; a face's D is the mean of its two corners. The
+//! time step is `time_step_fraction * dx^2 / (4 D_max)`, recomputed every substep, the
+//! von Neumann limit of forward Euler in 2-D (Hindmarsh & Payne 1996, Ann. Glaciol. 23, from
+//! memory). Each face moves one signed amount of ice from one cell to its neighbour, so ice
+//! is conserved to round-off. Where a cell's outgoing fluxes would remove more ice than it
+//! holds (at margins and bedrock steps, the problem shown by Jarosch, Schoof & Anslow 2013,
+//! The Cryosphere 7:229-240), all its outgoing fluxes are scaled down to what it holds; the
+//! scaled flux is the one its neighbour receives, so conservation is kept.
+//!
+//! Work is limited to the bounding box of the ice, grown by one cell each substep, plus the
+//! cells with positive balance: cost scales with the ice-covered area. State is `f64`: the
+//! yearly volume drift with zero balance is ~1e-15 relative; `f32` would leave ~1e-7 per
+//! substep, ~1e-4 over a century of substeps. The step allocates nothing.
+
+use serde::{Deserialize, Serialize};
+use thiserror::Error;
+
+use crate::mass_balance::LinearBalance;
+use crate::scenario::{check_range, ScenarioError};
+
+/// Seconds per year used for unit conversion, as in Bueler et al. (2005, J. Glaciol.
+/// 51(173)) (from memory); it reproduces their Test B t0 = 422.45 a.
+pub const SECONDS_PER_YEAR: f64 = 31_556_926.0;
+
+/// Gravitational acceleration, m s^-2 (common practice; standard gravity is 9.80665).
+pub const GRAVITY_M_S2: f64 = 9.81;
+
+/// Glen's flow-law exponent (Cuffey & Paterson 2010); fixed, the scheme is written for it.
+pub const GLEN_EXPONENT: f64 = 3.0;
+
+/// Flow parameters (the `flow` block of a scenario).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct FlowParams {
+    /// Glen rate factor A, Pa^-3 s^-1, 1e-27 to 1e-22. Default 2.4e-24, temperate ice at
+    /// 0 C (Cuffey & Paterson 2010, Table 3.4; value from memory).
+    pub rate_factor_pa3_s: f64,
+    /// Ice density, kg m^-3, 800 to 930. Default 910, the value of Bueler et al. 2005.
+    pub ice_density_kg_m3: f64,
+    /// Sliding coefficient f_s, Pa^-3 m^2 s^-1, 0 to 1e-18. Default 0 (no sliding); 5.7e-20
+    /// is the value of Budd et al. 1979 used in simple glacier models (from memory).
+    pub sliding_pa3_m2_s: f64,
+    /// Target cell size of the ice grid, m, 1 to 2000. Default 100. The input grid is
+    /// aggregated by the whole factor nearest to this over its cell size (at least 1): the
+    /// shallow-ice approximation only holds over several ice thicknesses, and the stable
+    /// time step grows with the square of the cell size.
+    pub ice_cell_size_m: f64,
+    /// Fraction of the stability limit dx^2/(4 D_max) used as time step, 0.01 to 1.
+    /// Default 0.8.
+    pub time_step_fraction: f64,
+}
+
+impl Default for FlowParams {
+    fn default() -> Self {
+        FlowParams {
+            rate_factor_pa3_s: 2.4e-24,
+            ice_density_kg_m3: 910.0,
+            sliding_pa3_m2_s: 0.0,
+            ice_cell_size_m: 100.0,
+            time_step_fraction: 0.8,
+        }
+    }
+}
+
+impl FlowParams {
+    /// Checks every number against its documented range.
+    pub fn validate(&self) -> Result<(), ScenarioError> {
+        check_range(
+            "flow.rate_factor_pa3_s",
+            self.rate_factor_pa3_s,
+            1e-27,
+            1e-22,
+            "Pa^-3 s^-1",
+        )?;
+        check_range(
+            "flow.ice_density_kg_m3",
+            self.ice_density_kg_m3,
+            800.0,
+            930.0,
+            "kg/m3",
+        )?;
+        check_range(
+            "flow.sliding_pa3_m2_s",
+            self.sliding_pa3_m2_s,
+            0.0,
+            1e-18,
+            "Pa^-3 m2 s^-1",
+        )?;
+        check_range(
+            "flow.ice_cell_size_m",
+            self.ice_cell_size_m,
+            1.0,
+            2000.0,
+            "m",
+        )?;
+        check_range(
+            "flow.time_step_fraction",
+            self.time_step_fraction,
+            0.01,
+            1.0,
+            "",
+        )?;
+        Ok(())
+    }
+
+    /// The constants of the flux law, per year.
+    pub fn constants(&self) -> FlowConstants {
+        FlowConstants::new(
+            self.rate_factor_pa3_s * SECONDS_PER_YEAR,
+            self.ice_density_kg_m3,
+            GRAVITY_M_S2,
+            self.sliding_pa3_m2_s * SECONDS_PER_YEAR,
+            self.time_step_fraction,
+        )
+    }
+}
+
+/// The constants the flux law needs, in year units.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct FlowConstants {
+    /// Gamma = 2 A (rho g)^3 / 5, m^-3 a^-1.
+    pub deformation_m3_a: f64,
+    /// S = f_s (rho g)^3, m^-1 a^-1.
+    pub sliding_m_a: f64,
+    /// Fraction of the stability limit used as time step.
+    pub time_step_fraction: f64,
+}
+
+impl FlowConstants {
+    /// From the rate factor (Pa^-3 a^-1), density, gravity, sliding (Pa^-3 m^2 a^-1).
+    pub fn new(
+        rate_factor_pa3_a: f64,
+        ice_density_kg_m3: f64,
+        gravity_m_s2: f64,
+        sliding_pa3_m2_a: f64,
+        time_step_fraction: f64,
+    ) -> FlowConstants {
+        let rho_g_cubed = (ice_density_kg_m3 * gravity_m_s2).powi(3);
+        FlowConstants {
+            deformation_m3_a: 2.0 * rate_factor_pa3_a * rho_g_cubed / (GLEN_EXPONENT + 2.0),
+            sliding_m_a: sliding_pa3_m2_a * rho_g_cubed,
+            time_step_fraction,
+        }
+    }
+}
+
+/// Problems with the flow grid itself (the caller's inputs, not the physics).
+#[derive(Debug, Clone, PartialEq, Error)]
+pub enum FlowError {
+    #[error("ice grid must be at least 3 x 3 cells, got {n_cols} x {n_rows}")]
+    TooSmall { n_cols: usize, n_rows: usize },
+    #[error("ice grid cell size must be positive and finite, got {0} m")]
+    CellSize(f64),
+    #[error("{layer} has {found} values, the ice grid has {expected} cells")]
+    Length {
+        layer: &'static str,
+        found: usize,
+        expected: usize,
+    },
+    #[error("bed elevation is not finite at cell {0}")]
+    BedNotFinite(usize),
+}
+
+/// Inclusive cell rectangle.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct CellBox {
+    pub row_min: usize,
+    pub row_max: usize,
+    pub col_min: usize,
+    pub col_max: usize,
+}
+
+impl CellBox {
+    fn union(self, other: CellBox) -> CellBox {
+        CellBox {
+            row_min: self.row_min.min(other.row_min),
+            row_max: self.row_max.max(other.row_max),
+            col_min: self.col_min.min(other.col_min),
+            col_max: self.col_max.max(other.col_max),
+        }
+    }
+
+    fn grown(self, n_cols: usize, n_rows: usize) -> CellBox {
+        CellBox {
+            row_min: self.row_min.saturating_sub(1),
+            row_max: (self.row_max + 1).min(n_rows - 1),
+            col_min: self.col_min.saturating_sub(1),
+            col_max: (self.col_max + 1).min(n_cols - 1),
+        }
+    }
+
+    /// Number of cells inside.
+    pub fn n_cells(&self) -> usize {
+        (self.row_max - self.row_min + 1) * (self.col_max - self.col_min + 1)
+    }
+}
+
+/// Bounding box of the cells where `keep(cell_idx)` holds.
+fn bounding_box(n_cols: usize, n_rows: usize, keep: impl Fn(usize) -> bool) -> Option<CellBox> {
+    let mut found: Option<CellBox> = None;
+    for row in 0..n_rows {
+        let start = row * n_cols;
+        let first = (0..n_cols).find(|&c| keep(start + c));
+        if let Some(first) = first {
+            let last = (first..n_cols)
+                .rev()
+                .find(|&c| keep(start + c))
+                .unwrap_or(first);
+            let this = CellBox {
+                row_min: row,
+                row_max: row,
+                col_min: first,
+                col_max: last,
+            };
+            found = Some(found.map_or(this, |b| b.union(this)));
+        }
+    }
+    found
+}
+
+/// What one call to [`SiaStepper::advance`] did.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct AdvanceReport {
+    /// Explicit substeps taken.
+    pub substeps: u32,
+    /// Largest corner diffusivity met, m^2 a^-1.
+    pub max_diffusivity_m2_a: f64,
+    /// Largest ratio of a substep to its stability limit dx^2/(4 D_max); never above 1.
+    pub max_step_over_limit: f64,
+    /// Ice volume added (positive) or removed by the surface balance, m^3. With the flux
+    /// form, the change of volume equals this to round-off.
+    pub balance_volume_m3: f64,
+    /// Cells updated, summed over substeps (cost measure).
+    pub cell_updates: u64,
+}
+
+/// The shallow-ice stepper: bed, open-cell mask and scratch buffers for one ice grid.
+/// Thickness is the caller's state, passed to [`SiaStepper::advance`].
+#[derive(Clone, Debug)]
+pub struct SiaStepper {
+    n_cols: usize,
+    n_rows: usize,
+    cell_size_m: f64,
+    constants: FlowConstants,
+    bed_m: Vec<f64>,
+    /// 1 where ice may lie, 0 at closed cells (no data); multiplies fluxes and balance.
+    open: Vec<f64>,
+    surface_m: Vec<f64>,
+    /// Corner (r, c), between cells r, r+1 and c, c+1, at `(r + 1) * (n_cols + 1) + c + 1`:
+    /// a padding row and column hold the corners north and west of the grid.
+    corner_diffusivity: Vec<f64>,
+    /// Ice moved east across the east face of cell (r, c) in one substep, metres of
+    /// thickness, at `r * (n_cols + 1) + c + 1`; index `r * (n_cols + 1)` is the grid's
+    /// west boundary and stays zero.
+    flux_east: Vec<f64>,
+    /// Ice moved south across the south face of cell (r, c), at `(r + 1) * n_cols + c`;
+    /// row 0 is the grid's north boundary and stays zero.
+    flux_south: Vec<f64>,
+    outflow_scale: Vec<f64>,
+}
+
+impl SiaStepper {
+    /// A stepper for a grid of `n_cols x n_rows` square cells. `open[i]` false closes a cell
+    /// to ice (no data); its bed value is still used for gradients, so fill it sensibly.
+    pub fn new(
+        n_cols: usize,
+        n_rows: usize,
+        cell_size_m: f64,
+        bed_m: Vec<f64>,
+        open: &[bool],
+        constants: FlowConstants,
+    ) -> Result<SiaStepper, FlowError> {
+        if n_cols < 3 || n_rows < 3 {
+            return Err(FlowError::TooSmall { n_cols, n_rows });
+        }
+        if !(cell_size_m.is_finite() && cell_size_m > 0.0) {
+            return Err(FlowError::CellSize(cell_size_m));
+        }
+        let n_cells = n_cols * n_rows;
+        for (layer, found) in [("bed", bed_m.len()), ("open mask", open.len())] {
+            if found != n_cells {
+                return Err(FlowError::Length {
+                    layer,
+                    found,
+                    expected: n_cells,
+                });
+            }
+        }
+        if let Some(idx) = bed_m.iter().position(|z| !z.is_finite()) {
+            return Err(FlowError::BedNotFinite(idx));
+        }
+        Ok(SiaStepper {
+            n_cols,
+            n_rows,
+            cell_size_m,
+            constants,
+            bed_m,
+            open: open.iter().map(|&o| if o { 1.0 } else { 0.0 }).collect(),
+            surface_m: vec![0.0; n_cells],
+            corner_diffusivity: vec![0.0; (n_rows + 1) * (n_cols + 1)],
+            flux_east: vec![0.0; n_rows * (n_cols + 1)],
+            flux_south: vec![0.0; (n_rows + 1) * n_cols],
+            outflow_scale: vec![0.0; n_cells],
+        })
+    }
+
+    pub fn n_cols(&self) -> usize {
+        self.n_cols
+    }
+
+    pub fn n_rows(&self) -> usize {
+        self.n_rows
+    }
+
+    pub fn cell_size_m(&self) -> f64 {
+        self.cell_size_m
+    }
+
+    pub fn bed_m(&self) -> &[f64] {
+        &self.bed_m
+    }
+
+    /// True where ice may lie.
+    pub fn is_open(&self, cell_idx: usize) -> bool {
+        self.open[cell_idx] > 0.0
+    }
+
+    /// Total ice volume of a thickness field on this grid, m^3.
+    pub fn volume_m3(&self, thickness_m: &[f64]) -> f64 {
+        thickness_m.iter().sum::<f64>() * self.cell_size_m * self.cell_size_m
+    }
+
+    /// Bounding box of the ice (H > 0), `None` when there is none.
+    pub fn ice_box(&self, thickness_m: &[f64]) -> Option<CellBox> {
+        bounding_box(self.n_cols, self.n_rows, |i| thickness_m[i] > 0.0)
+    }
+
+    /// Advances `thickness_m` by `duration_a` years under the balance profile `balance`.
+    ///
+    /// # Panics
+    /// If `thickness_m` does not have one value per cell (a programming error).
+    pub fn advance(
+        &mut self,
+        thickness_m: &mut [f64],
+        duration_a: f64,
+        balance: &LinearBalance,
+    ) -> AdvanceReport {
+        assert_eq!(
+            thickness_m.len(),
+            self.bed_m.len(),
+            "thickness must cover the ice grid"
+        );
+        let (n_cols, n_rows) = (self.n_cols, self.n_rows);
+        let mut report = AdvanceReport::default();
+        // Cells outside the ice that gain ice this year; their surface is the bed there.
+        let gaining_box = bounding_box(n_cols, n_rows, |i| {
+            self.open[i] > 0.0 && balance.rate_m_per_a(self.bed_m[i]) > 0.0
+        });
+        let mut ice_box = self.ice_box(thickness_m);
+        let mut elapsed_a = 0.0;
+        while elapsed_a < duration_a {
+            let region = match (ice_box.map(|b| b.grown(n_cols, n_rows)), gaining_box) {
+                (Some(a), Some(b)) => a.union(b),
+                (Some(a), None) => a,
+                (None, Some(b)) => b,
+                (None, None) => break,
+            };
+            let max_diffusivity = self.compute_diffusivity(thickness_m, region);
+            let limit_a = if max_diffusivity > 0.0 {
+                self.cell_size_m * self.cell_size_m / (4.0 * max_diffusivity)
+            } else {
+                f64::INFINITY
+            };
+            let dt_a = (self.constants.time_step_fraction * limit_a).min(duration_a - elapsed_a);
+            report.max_diffusivity_m2_a = report.max_diffusivity_m2_a.max(max_diffusivity);
+            report.max_step_over_limit = report.max_step_over_limit.max(dt_a / limit_a);
+            self.compute_fluxes(thickness_m, region, dt_a);
+            self.limit_outflow(thickness_m, region);
+            let (added_m, new_box) = self.apply(thickness_m, region, dt_a, balance);
+            report.balance_volume_m3 += added_m * self.cell_size_m * self.cell_size_m;
+            report.cell_updates += region.n_cells() as u64;
+            report.substeps += 1;
+            ice_box = new_box;
+            // The last substep ends the year exactly.
+            elapsed_a = if dt_a >= duration_a - elapsed_a {
+                duration_a
+            } else {
+                elapsed_a + dt_a
+            };
+        }
+        report
+    }
+
+    /// Surface over the region and corner diffusivities; returns the largest.
+    fn compute_diffusivity(&mut self, thickness_m: &[f64], region: CellBox) -> f64 {
+        let n_cols = self.n_cols;
+        let stride = n_cols + 1;
+        let (c0, c1) = (region.col_min, region.col_max);
+        for row in region.row_min..=region.row_max {
+            let span = row * n_cols + c0..row * n_cols + c1 + 1;
+            let surface = &mut self.surface_m[span.clone()];
+            for ((s, &b), &h) in surface
+                .iter_mut()
+                .zip(&self.bed_m[span.clone()])
+                .zip(&thickness_m[span])
+            {
+                *s = b + h;
+            }
+        }
+        // Corners next to the region touch only ice-free cells (the region holds a ring of
+        // ice-free cells around all ice), so their diffusivity is zero.
+        let corners = &mut self.corner_diffusivity;
+        for stored_row in [region.row_min, region.row_max + 1] {
+            corners[stored_row * stride + c0..stored_row * stride + c1 + 2].fill(0.0);
+        }
+        for row in region.row_min..=region.row_max {
+            corners[(row + 1) * stride + c0] = 0.0;
+            corners[(row + 1) * stride + c1 + 1] = 0.0;
+        }
+        let gamma = self.constants.deformation_m3_a;
+        let sliding = self.constants.sliding_m_a;
+        let inv_two_dx = 0.5 / self.cell_size_m;
+        let mut max_diffusivity = 0.0_f64;
+        let width = c1 - c0;
+        for row in region.row_min..region.row_max {
+            let north = row * n_cols + c0;
+            let south = north + n_cols;
+            let h_n = &thickness_m[north..north + width + 1];
+            let h_s = &thickness_m[south..south + width + 1];
+            let s_n = &self.surface_m[north..north + width + 1];
+            let s_s = &self.surface_m[south..south + width + 1];
+            let out =
+                &mut corners[(row + 1) * stride + c0 + 1..(row + 1) * stride + c0 + 1 + width];
+            for k in 0..width {
+                let h = 0.25 * (h_n[k] + h_n[k + 1] + h_s[k] + h_s[k + 1]);
+                let ds_dx = (s_n[k + 1] + s_s[k + 1] - s_n[k] - s_s[k]) * inv_two_dx;
+                let ds_dy = (s_s[k] + s_s[k + 1] - s_n[k] - s_n[k + 1]) * inv_two_dx;
+                let h3 = h * h * h;
+                let d = (gamma * h3 * h * h + sliding * h3) * (ds_dx * ds_dx + ds_dy * ds_dy);
+                out[k] = d;
+                max_diffusivity = max_diffusivity.max(d);
+            }
+        }
+        max_diffusivity
+    }
+
+    /// Face fluxes over one substep, as metres of thickness moved.
+    fn compute_fluxes(&mut self, _thickness_m: &[f64], region: CellBox, dt_a: f64) {
+        let n_cols = self.n_cols;
+        let stride = n_cols + 1;
+        let (c0, c1) = (region.col_min, region.col_max);
+        // Metres of thickness per unit diffusivity and unit surface difference.
+        let factor = -dt_a / (self.cell_size_m * self.cell_size_m);
+        let corners = &self.corner_diffusivity;
+        for row in region.row_min..=region.row_max {
+            let cells = row * n_cols;
+            let faces = row * stride;
+            // Faces on the region's edge carry nothing (see `compute_diffusivity`).
+            self.flux_east[faces + c0] = 0.0;
+            self.flux_east[faces + c1 + 1] = 0.0;
+            for c in c0..c1 {
+                let d = 0.5 * (corners[row * stride + c + 1] + corners[(row + 1) * stride + c + 1]);
+                let open = self.open[cells + c] * self.open[cells + c + 1];
+                let ds = self.surface_m[cells + c + 1] - self.surface_m[cells + c];
+                self.flux_east[faces + c + 1] = factor * d * ds * open;
+            }
+        }
+        for c in c0..=c1 {
+            self.flux_south[region.row_min * n_cols + c] = 0.0;
+            self.flux_south[(region.row_max + 1) * n_cols + c] = 0.0;
+        }
+        for row in region.row_min..region.row_max {
+            let cells = row * n_cols;
+            let corner_row = (row + 1) * stride;
+            for c in c0..=c1 {
+                let d = 0.5 * (corners[corner_row + c] + corners[corner_row + c + 1]);
+                let open = self.open[cells + c] * self.open[cells + n_cols + c];
+                let ds = self.surface_m[cells + n_cols + c] - self.surface_m[cells + c];
+                self.flux_south[(row + 1) * n_cols + c] = factor * d * ds * open;
+            }
+        }
+    }
+
+    /// Scales each cell's outgoing fluxes so it loses at most the ice it holds.
+    fn limit_outflow(&mut self, thickness_m: &[f64], region: CellBox) {
+        let n_cols = self.n_cols;
+        let stride = n_cols + 1;
+        let (c0, c1) = (region.col_min, region.col_max);
+        for row in region.row_min..=region.row_max {
+            for c in c0..=c1 {
+                let idx = row * n_cols + c;
+                let east = self.flux_east[row * stride + c + 1];
+                let west = self.flux_east[row * stride + c];
+                let south = self.flux_south[idx + n_cols];
+                let north = self.flux_south[idx];
+                let outflow = east.max(0.0) + (-west).max(0.0) + south.max(0.0) + (-north).max(0.0);
+                let h = thickness_m[idx];
+                self.outflow_scale[idx] = if outflow > h { h / outflow } else { 1.0 };
+            }
+        }
+        for row in region.row_min..=region.row_max {
+            for c in c0..c1 {
+                let face = row * stride + c + 1;
+                let flux = self.flux_east[face];
+                let donor = if flux > 0.0 {
+                    row * n_cols + c
+                } else {
+                    row * n_cols + c + 1
+                };
+                self.flux_east[face] = flux * self.outflow_scale[donor];
+            }
+        }
+        for row in region.row_min..region.row_max {
+            for c in c0..=c1 {
+                let face = (row + 1) * n_cols + c;
+                let flux = self.flux_south[face];
+                let donor = if flux > 0.0 {
+                    row * n_cols + c
+                } else {
+                    (row + 1) * n_cols + c
+                };
+                self.flux_south[face] = flux * self.outflow_scale[donor];
+            }
+        }
+    }
+
+    /// Applies fluxes and balance; returns the thickness added by the balance (summed over
+    /// cells, m) and the new bounding box of the ice.
+    fn apply(
+        &mut self,
+        thickness_m: &mut [f64],
+        region: CellBox,
+        dt_a: f64,
+        balance: &LinearBalance,
+    ) -> (f64, Option<CellBox>) {
+        let n_cols = self.n_cols;
+        let stride = n_cols + 1;
+        let (c0, c1) = (region.col_min, region.col_max);
+        let mut added_m = 0.0;
+        let mut ice_box: Option<CellBox> = None;
+        for row in region.row_min..=region.row_max {
+            let mut first = usize::MAX;
+            let mut last = 0;
+            for c in c0..=c1 {
+                let idx = row * n_cols + c;
+                let divergence = self.flux_east[row * stride + c + 1]
+                    - self.flux_east[row * stride + c]
+                    + self.flux_south[idx + n_cols]
+                    - self.flux_south[idx];
+                let after_flow = thickness_m[idx] - divergence;
+                let rate = balance.rate_m_per_a(self.surface_m[idx]) * self.open[idx];
+                let new_h = (after_flow + rate * dt_a).max(0.0);
+                added_m += new_h - after_flow;
+                thickness_m[idx] = new_h;
+                if new_h > 0.0 {
+                    first = first.min(c);
+                    last = c;
+                }
+            }
+            if first != usize::MAX {
+                let this = CellBox {
+                    row_min: row,
+                    row_max: row,
+                    col_min: first,
+                    col_max: last,
+                };
+                ice_box = Some(ice_box.map_or(this, |b| b.union(this)));
+            }
+        }
+        (added_m, ice_box)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn flat_stepper(n: usize, dx: f64) -> SiaStepper {
+        let constants = FlowParams::default().constants();
+        SiaStepper::new(n, n, dx, vec![0.0; n * n], &vec![true; n * n], constants).expect("grid")
+    }
+
+    #[test]
+    fn gamma_matches_the_science_checks_value() {
+        // SCIENCE-CHECKS section 2 [C]: A = 1e-16 Pa^-3 a^-1, rho 910, g 9.81 -> 2.8457e-5.
+        let c = FlowConstants::new(1e-16, 910.0, 9.81, 0.0, 0.8);
+        assert!((c.deformation_m3_a / 2.8457e-5 - 1.0).abs() < 1e-4);
+        // A(0 C) = 2.4e-24 Pa^-3 s^-1 -> 2.155e-5 m^-3 a^-1.
+        let c = FlowParams::default().constants();
+        assert!((c.deformation_m3_a / 2.155e-5 - 1.0).abs() < 1e-3);
+    }
+
+    #[test]
+    fn a_single_column_spreads_conservatively_and_stays_non_negative() {
+        let mut stepper = flat_stepper(21, 100.0);
+        let mut h = vec![0.0; 21 * 21];
+        h[10 * 21 + 10] = 300.0;
+        let v0 = stepper.volume_m3(&h);
+        let report = stepper.advance(&mut h, 5.0, &LinearBalance::ZERO);
+        assert!(report.substeps > 1);
+        assert!(report.max_step_over_limit <= 1.0);
+        assert!(h.iter().all(|&x| x >= 0.0));
+        assert!(((stepper.volume_m3(&h) - v0) / v0).abs() < 1e-13);
+        assert!(h[10 * 21 + 10] < 300.0);
+    }
+
+    #[test]
+    fn no_ice_and_no_positive_balance_is_a_no_op() {
+        let mut stepper = flat_stepper(5, 100.0);
+        let mut h = vec![0.0; 25];
+        let melt = LinearBalance {
+            ela_m: 1000.0,
+            ..LinearBalance::ZERO
+        };
+        let report = stepper.advance(&mut h, 1.0, &melt);
+        assert_eq!(report.substeps, 0);
+        assert!(h.iter().all(|&x| x == 0.0));
+    }
+
+    #[test]
+    fn bad_grids_are_typed_errors() {
+        let c = FlowParams::default().constants();
+        assert!(matches!(
+            SiaStepper::new(2, 5, 10.0, vec![0.0; 10], &[true; 10], c),
+            Err(FlowError::TooSmall { .. })
+        ));
+        assert!(matches!(
+            SiaStepper::new(3, 3, 10.0, vec![0.0; 8], &[true; 9], c),
+            Err(FlowError::Length { .. })
+        ));
+    }
+}

@@ -1,0 +1,20 @@
+//! Forefield engine: glacier retreat and plant colonisation on regular projected grids.
+//!
+//! The engine knows nothing about the browser, files, the clock or unseeded randomness:
+//! inputs arrive as bytes or plain values, outputs leave as values or bytes. The wasm layer
+//! (`forefield-wasm`) and the command line (`forefield-cli`) are thin front ends over it.
+
+pub mod climate;
+pub mod geotiff;
+pub mod grid;
+pub mod heightmap_png;
+pub mod ice_flow;
+pub mod load_error;
+pub mod mass_balance;
+pub mod render;
+pub mod sample;
+pub mod scenario;
+pub mod terrain;
+
+pub use grid::{Grid, GridGeometry, MAX_CELLS};
+pub use load_error::{LoadError, LoadProblem};

@@ -1,0 +1,236 @@
+//! Generator of the invented demo valley: surface DEM, ice thickness, bed and vegetation.
+//!
+//! Everything here is made up. The valley runs from a cirque headwall in the north to a
+//! forested mouth in the south; a valley glacier fills its upper half, over an overdeepened
+//! basin that will hold a lake once the ice is gone, with an older terminal moraine below
+//! the present tongue. The grid is placed at open-ocean coordinates of UTM zone 26N
+//! (EPSG:32626) so that it never coincides with a real place. Values come from smooth
+//! closed-form shapes plus hashed value noise, so the output is identical on every machine.
+
+use crate::grid::{Grid, GridGeometry};
+
+/// Stage codes of the existing-vegetation grid (the succession stages of the model).
+pub mod vegetation_code {
+    pub const ICE: u8 = 0;
+    pub const BARE: u8 = 1;
+    pub const PIONEER: u8 = 2;
+    pub const MEADOW: u8 = 3;
+    pub const SHRUBLAND: u8 = 4;
+    pub const YOUNG_FOREST: u8 = 5;
+    pub const MATURE_FOREST: u8 = 6;
+}
+
+/// The demo valley's layers on one grid.
+pub struct SampleValley {
+    /// Ice surface where there is ice, ground elsewhere, metres above sea level.
+    pub surface_m: Grid,
+    /// Rock or sediment surface under the ice, metres above sea level.
+    pub bed_m: Grid,
+    /// Present ice thickness, metres.
+    pub ice_thickness_m: Grid,
+    /// Present vegetation as a stage code (see [`vegetation_code`]).
+    pub vegetation: Grid,
+}
+
+/// Default size: 400 x 400 cells of 25 m (10 km square).
+pub const SMALL_SIZE: usize = 400;
+/// Benchmark size: 1024 x 1024 cells of 25 m (25.6 km square).
+pub const LARGE_SIZE: usize = 1024;
+/// Cell size of both samples, metres.
+pub const CELL_SIZE_M: f64 = 25.0;
+
+/// Builds the valley on an `n` x `n` grid of 25 m cells; the shapes scale with the grid.
+pub fn generate(n: usize) -> SampleValley {
+    let geometry = GridGeometry {
+        n_cols: n,
+        n_rows: n,
+        cell_size_m: CELL_SIZE_M,
+        west_m: 480_000.0,
+        north_m: 4_990_000.0,
+        epsg: Some(32626),
+    };
+    let cells = geometry.n_cells();
+    let mut bed = vec![0f32; cells];
+    let mut ice = vec![0f32; cells];
+    let size_km = n as f64 * CELL_SIZE_M / 1000.0;
+    for row in 0..n {
+        for col in 0..n {
+            let u = (col as f64 + 0.5) / n as f64;
+            let v = (row as f64 + 0.5) / n as f64;
+            let (bed_m, ice_m) = valley_at(u, v, size_km);
+            bed[row * n + col] = bed_m as f32;
+            ice[row * n + col] = ice_m as f32;
+        }
+    }
+    let surface: Vec<f32> = bed.iter().zip(&ice).map(|(b, h)| b + h).collect();
+    let surface_m = Grid::from_values(geometry, surface);
+    let slope = crate::terrain::derivatives(&surface_m, crate::terrain::Sun::default()).slope_deg;
+    let vegetation: Vec<f32> = (0..cells)
+        .map(|idx| {
+            let row = idx / n;
+            let v = (row as f64 + 0.5) / n as f64;
+            f32::from(vegetation_at(
+                f64::from(bed[idx]),
+                f64::from(ice[idx]),
+                slope[idx],
+                v,
+                idx,
+            ))
+        })
+        .collect();
+    SampleValley {
+        bed_m: Grid::from_values(geometry, bed),
+        ice_thickness_m: Grid::from_values(geometry, ice),
+        vegetation: Grid::from_values(geometry, vegetation),
+        surface_m,
+    }
+}
+
+/// Position of the present ice front and the older moraine, as fractions of the valley length.
+const TONGUE_V: f64 = 0.56;
+const MORAINE_V: f64 = 0.66;
+const HEAD_V: f64 = 0.04;
+const BASIN_DEPTH_M: f64 = 110.0;
+
+fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
+    let centre_u = 0.5 + 0.07 * (2.6 * v + 0.4).sin();
+    let d = (u - centre_u).abs();
+    let floor = 2950.0 - 1550.0 * v.powf(0.85);
+    let ridge = 3250.0 - 350.0 * v;
+    let cross = (d / 0.40).min(1.0).powf(1.8);
+    let mut z = floor + (ridge - floor) * cross;
+    // Cirque headwall closing the valley to the north.
+    if v < 0.12 {
+        let t = (0.12 - v) / 0.12;
+        z += 450.0 * t * t * (1.0 - cross);
+    }
+    // A side spur on the west wall and a hanging tributary notch on the east.
+    z += 120.0 * gauss(u - 0.18, 0.06) * gauss(v - 0.72, 0.08);
+    z -= 160.0 * gauss(u - 0.78, 0.05) * gauss(v - 0.35, 0.04) * (1.0 - gauss(d, 0.1));
+    // Overdeepened basin under the present ice, dammed by a riegel below it.
+    z -= BASIN_DEPTH_M * gauss(v - 0.42, 0.05) * gauss(d, 0.07);
+    z += 60.0 * gauss(v - 0.495, 0.018) * gauss(d, 0.12);
+    // Older terminal moraine arc below the present tongue.
+    z += 28.0 * gauss(v - MORAINE_V - 2.0 * d * d, 0.012) * gauss(d, 0.14);
+    // Rough rock: value noise with octaves at about 1.6 km, 800 m, 400 m and 200 m.
+    let noise = fractal_noise(u * size_km / 1.6, v * size_km / 1.6, 4);
+    z += 45.0 * noise * (0.3 + cross);
+
+    let thickness = if v > HEAD_V && v < TONGUE_V {
+        let along = ((TONGUE_V - v) / (TONGUE_V - HEAD_V)).sqrt();
+        let head_taper = ((v - HEAD_V) / 0.06).min(1.0);
+        let half_width = 0.10 + 0.04 * (1.0 - v);
+        let across = (1.0 - (d / half_width).powi(2)).max(0.0);
+        230.0 * along * head_taper * across.sqrt()
+    } else {
+        0.0
+    };
+    // The ice fills the basin: thickness grows by what the basin took from the bed.
+    let basin = BASIN_DEPTH_M * gauss(v - 0.42, 0.05) * gauss(d, 0.07);
+    let ice = if thickness > 1.0 {
+        thickness + basin
+    } else {
+        0.0
+    };
+    (z, ice)
+}
+
+fn vegetation_at(bed_m: f64, ice_m: f64, slope_deg: f32, v: f64, idx: usize) -> u8 {
+    use vegetation_code::*;
+    if ice_m > 0.0 {
+        return ICE;
+    }
+    // Ground left by the ice since the moraine stage is still young and barely vegetated.
+    let jitter = 40.0 * (hash(idx as u64 ^ 0x9e37_79b9) - 0.5);
+    let z = bed_m + jitter;
+    if v < MORAINE_V + 0.01 && bed_m < 2700.0 && slope_deg < 30.0 {
+        return if v > MORAINE_V - 0.04 { PIONEER } else { BARE };
+    }
+    if slope_deg > 42.0 || z > 2750.0 {
+        BARE
+    } else if z > 2550.0 {
+        PIONEER
+    } else if z > 2250.0 {
+        MEADOW
+    } else if z > 2050.0 {
+        SHRUBLAND
+    } else if z > 1900.0 {
+        YOUNG_FOREST
+    } else {
+        MATURE_FOREST
+    }
+}
+
+fn gauss(x: f64, width: f64) -> f64 {
+    (-(x / width).powi(2)).exp()
+}
+
+/// Hash of a 64-bit key to [0, 1) (SplitMix64 finaliser; Steele, Lea & Flood 2014).
+fn hash(key: u64) -> f64 {
+    let mut z = key.wrapping_add(0x9e37_79b9_7f4a_7c15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+    z ^= z >> 31;
+    (z >> 11) as f64 / (1u64 << 53) as f64
+}
+
+fn lattice(ix: i64, iy: i64, octave: u32) -> f64 {
+    let key = (ix as u64).wrapping_mul(0x0001_0000_01b3)
+        ^ (iy as u64).rotate_left(29)
+        ^ u64::from(octave) << 58;
+    2.0 * hash(key) - 1.0
+}
+
+/// Smoothly interpolated lattice noise in [-1, 1], summed over octaves.
+fn fractal_noise(x: f64, y: f64, octaves: u32) -> f64 {
+    let mut total = 0.0;
+    let mut amplitude = 1.0;
+    let mut norm = 0.0;
+    for octave in 0..octaves {
+        let scale = f64::from(1u32 << octave);
+        let (px, py) = (x * scale, y * scale);
+        let (ix, iy) = (px.floor() as i64, py.floor() as i64);
+        let (fx, fy) = (px - px.floor(), py - py.floor());
+        let (sx, sy) = (fx * fx * (3.0 - 2.0 * fx), fy * fy * (3.0 - 2.0 * fy));
+        let top = lattice(ix, iy, octave) * (1.0 - sx) + lattice(ix + 1, iy, octave) * sx;
+        let bottom =
+            lattice(ix, iy + 1, octave) * (1.0 - sx) + lattice(ix + 1, iy + 1, octave) * sx;
+        total += amplitude * (top * (1.0 - sy) + bottom * sy);
+        norm += amplitude;
+        amplitude *= 0.5;
+    }
+    total / norm
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn valley_has_a_glacier_a_basin_and_forest() {
+        let valley = generate(100);
+        let ice_cells = valley
+            .ice_thickness_m
+            .values
+            .iter()
+            .filter(|&&h| h > 1.0)
+            .count();
+        assert!(ice_cells > 300 && ice_cells < 3000, "{ice_cells} ice cells");
+        let max_ice = valley.ice_thickness_m.value_range().unwrap().1;
+        assert!(max_ice > 150.0 && max_ice < 400.0, "max ice {max_ice}");
+        let forest = valley
+            .vegetation
+            .values
+            .iter()
+            .filter(|&&c| c as u8 == vegetation_code::MATURE_FOREST)
+            .count();
+        assert!(forest > 200, "{forest} forest cells");
+        let (lo, hi) = valley.surface_m.value_range().unwrap();
+        assert!(lo > 1200.0 && hi < 3900.0, "{lo}..{hi}");
+    }
+
+    #[test]
+    fn generation_is_deterministic() {
+        assert_eq!(generate(64).surface_m, generate(64).surface_m);
+    }
+}

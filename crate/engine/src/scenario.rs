@@ -1,0 +1,328 @@
+//! Scenario file: the versioned JSON that names the input grids and sets the years, climate,
+//! mass-balance and flow parameters and the random seed of a run.
+//!
+//! Unknown fields are an error, missing fields take documented defaults, and every number is
+//! checked against a stated range before a run starts; the error names the field, the value
+//! and the range. The `version` field is required so a file written for another layout is
+//! refused rather than misread.
+
+use serde::{Deserialize, Serialize};
+use thiserror::Error;
+
+use crate::climate::ClimateParams;
+use crate::ice_flow::FlowParams;
+use crate::mass_balance::MassBalanceParams;
+
+/// The scenario layout this engine reads and writes.
+pub const SCENARIO_VERSION: u32 = 1;
+
+/// Largest seed: integers above 2^53 do not survive a trip through JavaScript numbers.
+pub const MAX_SEED: u64 = (1 << 53) - 1;
+
+/// Most years one scenario may simulate.
+pub const MAX_YEARS: u32 = 2000;
+
+/// A bad scenario: the message names the field, the value and what is allowed.
+#[derive(Debug, Clone, PartialEq, Error)]
+pub enum ScenarioError {
+    #[error("scenario is not valid JSON for this layout: {0}")]
+    Json(String),
+    #[error("scenario version {found} is not supported; this engine reads version {supported}")]
+    Version { found: String, supported: u32 },
+    #[error("{field} = {value} is outside the valid range {min} to {max} {unit}")]
+    OutOfRange {
+        field: String,
+        value: f64,
+        min: f64,
+        max: f64,
+        unit: &'static str,
+    },
+    #[error("{field}: {problem}")]
+    Invalid { field: String, problem: String },
+}
+
+/// Checks that `value` is finite and inside `[min, max]`.
+pub fn check_range(
+    field: &str,
+    value: f64,
+    min: f64,
+    max: f64,
+    unit: &'static str,
+) -> Result<(), ScenarioError> {
+    if value.is_finite() && value >= min && value <= max {
+        Ok(())
+    } else {
+        Err(ScenarioError::OutOfRange {
+            field: field.to_string(),
+            value,
+            min,
+            max,
+            unit,
+        })
+    }
+}
+
+/// Input grid file names; the command line resolves them relative to the scenario file.
+///
+/// Allowed combinations: bed + thickness; surface + thickness (bed = surface - thickness);
+/// surface + glacier mask (thickness estimated from the surface slope, see `ice_outline`);
+/// bed or surface alone (no ice at the start).
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct GridFiles {
+    /// Ice-surface (or ground-surface where ice-free) elevation, m, GeoTIFF.
+    pub surface_elevation: Option<String>,
+    /// Bed (ice-free ground) elevation, m, GeoTIFF.
+    pub bed_elevation: Option<String>,
+    /// Initial ice thickness, m, GeoTIFF; nodata counts as no ice.
+    pub ice_thickness: Option<String>,
+    /// Glacier mask, GeoTIFF: cells with a value above zero lie inside the glacier.
+    pub glacier_mask: Option<String>,
+}
+
+impl GridFiles {
+    /// Checks that the named grids form one of the allowed combinations.
+    pub fn validate(&self) -> Result<(), ScenarioError> {
+        let problem = match (
+            self.surface_elevation.is_some(),
+            self.bed_elevation.is_some(),
+            self.ice_thickness.is_some(),
+            self.glacier_mask.is_some(),
+        ) {
+            (false, false, _, _) => Some("name surface_elevation or bed_elevation"),
+            (true, true, true, _) => Some(
+                "give two of surface_elevation, bed_elevation and ice_thickness, not all three",
+            ),
+            (_, _, true, true) => Some("give ice_thickness or glacier_mask, not both"),
+            (false, true, _, true) => {
+                Some("glacier_mask needs surface_elevation to estimate thickness")
+            }
+            _ => None,
+        };
+        for (field, name) in [
+            ("grids.surface_elevation", &self.surface_elevation),
+            ("grids.bed_elevation", &self.bed_elevation),
+            ("grids.ice_thickness", &self.ice_thickness),
+            ("grids.glacier_mask", &self.glacier_mask),
+        ] {
+            if name.as_deref().is_some_and(|n| n.trim().is_empty()) {
+                return Err(ScenarioError::Invalid {
+                    field: field.to_string(),
+                    problem: "file name is empty".to_string(),
+                });
+            }
+        }
+        match problem {
+            Some(problem) => Err(ScenarioError::Invalid {
+                field: "grids".to_string(),
+                problem: problem.to_string(),
+            }),
+            None => Ok(()),
+        }
+    }
+}
+
+fn default_start_year() -> i32 {
+    2025
+}
+
+fn default_n_years() -> u32 {
+    100
+}
+
+fn default_name() -> String {
+    "unnamed scenario".to_string()
+}
+
+/// A whole scenario. Construct with [`Scenario::from_json`] (parses and validates) or
+/// start from `Scenario::default()` and call [`Scenario::validate`].
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Scenario {
+    /// Layout version; must equal [`SCENARIO_VERSION`].
+    pub version: u32,
+    /// Free text shown in outputs.
+    #[serde(default = "default_name")]
+    pub name: String,
+    #[serde(default)]
+    pub grids: GridFiles,
+    /// Year the input grids describe (end of that year), -10000 to 10000. Default 2025.
+    #[serde(default = "default_start_year")]
+    pub start_year: i32,
+    /// Years to simulate after the start year, 1 to 2000. Default 100.
+    #[serde(default = "default_n_years")]
+    pub n_years: u32,
+    /// Years whose ice thickness is written out, each from start_year to start_year + n_years.
+    #[serde(default)]
+    pub output_years: Vec<i32>,
+    #[serde(default)]
+    pub climate: ClimateParams,
+    #[serde(default)]
+    pub mass_balance: MassBalanceParams,
+    #[serde(default)]
+    pub flow: FlowParams,
+    /// Seed for every random choice of the run, 0 to 2^53 - 1. Same seed, same numbers.
+    #[serde(default)]
+    pub seed: u64,
+}
+
+impl Default for Scenario {
+    fn default() -> Self {
+        Scenario {
+            version: SCENARIO_VERSION,
+            name: default_name(),
+            grids: GridFiles::default(),
+            start_year: default_start_year(),
+            n_years: default_n_years(),
+            output_years: Vec::new(),
+            climate: ClimateParams::default(),
+            mass_balance: MassBalanceParams::default(),
+            flow: FlowParams::default(),
+            seed: 0,
+        }
+    }
+}
+
+impl Scenario {
+    /// Parses and validates a scenario. The version is checked first so that a file of
+    /// another layout reports its version, not a confusing field error.
+    pub fn from_json(text: &str) -> Result<Scenario, ScenarioError> {
+        let value: serde_json::Value =
+            serde_json::from_str(text).map_err(|e| ScenarioError::Json(e.to_string()))?;
+        match value.get("version") {
+            None => {
+                return Err(ScenarioError::Invalid {
+                    field: "version".to_string(),
+                    problem: format!("missing; write \"version\": {SCENARIO_VERSION}"),
+                })
+            }
+            Some(v) if v.as_u64() != Some(u64::from(SCENARIO_VERSION)) => {
+                return Err(ScenarioError::Version {
+                    found: v.to_string(),
+                    supported: SCENARIO_VERSION,
+                })
+            }
+            Some(_) => {}
+        }
+        let scenario: Scenario =
+            serde_json::from_value(value).map_err(|e| ScenarioError::Json(e.to_string()))?;
+        scenario.validate()?;
+        Ok(scenario)
+    }
+
+    /// The scenario as pretty JSON, for saving and sharing.
+    pub fn to_json(&self) -> String {
+        // Serialising plain data with string keys cannot fail.
+        serde_json::to_string_pretty(self).unwrap_or_default()
+    }
+
+    /// Checks every field; grid names are checked only when at least one is given, so a
+    /// scenario built in code around grids already in memory may leave them empty.
+    pub fn validate(&self) -> Result<(), ScenarioError> {
+        if self.version != SCENARIO_VERSION {
+            return Err(ScenarioError::Version {
+                found: self.version.to_string(),
+                supported: SCENARIO_VERSION,
+            });
+        }
+        if self.grids != GridFiles::default() {
+            self.grids.validate()?;
+        }
+        check_range(
+            "start_year",
+            f64::from(self.start_year),
+            -10000.0,
+            10000.0,
+            "year",
+        )?;
+        check_range(
+            "n_years",
+            f64::from(self.n_years),
+            1.0,
+            f64::from(MAX_YEARS),
+            "years",
+        )?;
+        let last_year = f64::from(self.start_year) + f64::from(self.n_years);
+        for (i, &year) in self.output_years.iter().enumerate() {
+            check_range(
+                &format!("output_years[{i}]"),
+                f64::from(year),
+                f64::from(self.start_year),
+                last_year,
+                "year",
+            )?;
+        }
+        check_range("seed", self.seed as f64, 0.0, MAX_SEED as f64, "")?;
+        self.climate.validate()?;
+        self.mass_balance.validate()?;
+        self.flow.validate()?;
+        Ok(())
+    }
+
+    /// Last simulated year.
+    pub fn end_year(&self) -> i32 {
+        self.start_year + self.n_years as i32
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn minimal_file_takes_defaults() {
+        let scenario = Scenario::from_json(r#"{"version": 1}"#).expect("valid");
+        assert_eq!(scenario, Scenario::default());
+    }
+
+    #[test]
+    fn round_trips_through_json() {
+        let mut scenario = Scenario::default();
+        scenario.output_years = vec![2030, 2100];
+        scenario.grids.bed_elevation = Some("bed.tif".to_string());
+        let back = Scenario::from_json(&scenario.to_json()).expect("valid");
+        assert_eq!(back, scenario);
+    }
+
+    #[test]
+    fn unknown_fields_are_errors() {
+        let err =
+            Scenario::from_json(r#"{"version": 1, "mass_balance": {"ela": 3000}}"#).unwrap_err();
+        assert!(matches!(err, ScenarioError::Json(_)));
+        assert!(err.to_string().contains("ela"), "{err}");
+    }
+
+    #[test]
+    fn wrong_or_missing_version_is_refused() {
+        assert!(matches!(
+            Scenario::from_json(r#"{"version": 2}"#),
+            Err(ScenarioError::Version { .. })
+        ));
+        assert!(matches!(
+            Scenario::from_json("{}"),
+            Err(ScenarioError::Invalid { .. })
+        ));
+    }
+
+    #[test]
+    fn out_of_range_values_name_field_value_and_range() {
+        let err = Scenario::from_json(r#"{"version": 1, "flow": {"ice_density_kg_m3": 2000}}"#)
+            .unwrap_err();
+        let message = err.to_string();
+        assert!(message.contains("flow.ice_density_kg_m3"), "{message}");
+        assert!(message.contains("2000"), "{message}");
+        assert!(message.contains("800"), "{message}");
+        let err = Scenario::from_json(r#"{"version": 1, "n_years": 10, "output_years": [2100]}"#)
+            .unwrap_err();
+        assert!(err.to_string().contains("output_years[0]"), "{err}");
+    }
+
+    #[test]
+    fn grid_combinations_are_checked() {
+        let err = Scenario::from_json(
+            r#"{"version": 1, "grids": {"bed_elevation": "b.tif", "glacier_mask": "m.tif"}}"#,
+        )
+        .unwrap_err();
+        assert!(err.to_string().contains("glacier_mask"), "{err}");
+    }
+}
