@@ -29,7 +29,13 @@ impl ExposureTracker {
         ExposureTracker {
             year_exposed: ice_thickness_m
                 .iter()
-                .map(|&h| if h >= ICE_COVER_THRESHOLD_M { STILL_ICE_COVERED } else { ICE_FREE_AT_START })
+                .map(|&h| {
+                    if h >= ICE_COVER_THRESHOLD_M {
+                        STILL_ICE_COVERED
+                    } else {
+                        ICE_FREE_AT_START
+                    }
+                })
                 .collect(),
             reglaciations: vec![0; ice_thickness_m.len()],
         }
@@ -37,7 +43,12 @@ impl ExposureTracker {
 
     /// Records the thickness at the end of `year` for the cells in `cells` (a range of cell
     /// indices; cells outside it must not have changed). Returns how many became ice-free.
-    pub fn update(&mut self, ice_thickness_m: &[f32], year: i32, cells: std::ops::Range<usize>) -> usize {
+    pub fn update(
+        &mut self,
+        ice_thickness_m: &[f32],
+        year: i32,
+        cells: std::ops::Range<usize>,
+    ) -> usize {
         let mut newly_exposed = 0;
         let years = &mut self.year_exposed[cells.clone()];
         let counts = &mut self.reglaciations[cells.clone()];
@@ -72,9 +83,15 @@ mod tests {
     #[test]
     fn exposure_keeps_the_latest_year_and_marks_initially_free_cells() {
         let mut tracker = ExposureTracker::new(&[50.0, 0.5, 20.0]);
-        assert_eq!(tracker.year_exposed(), &[STILL_ICE_COVERED, ICE_FREE_AT_START, STILL_ICE_COVERED]);
+        assert_eq!(
+            tracker.year_exposed(),
+            &[STILL_ICE_COVERED, ICE_FREE_AT_START, STILL_ICE_COVERED]
+        );
         assert_eq!(tracker.update(&[0.9, 0.0, 30.0], 2030, 0..3), 1);
-        assert_eq!(tracker.year_exposed(), &[2030, ICE_FREE_AT_START, STILL_ICE_COVERED]);
+        assert_eq!(
+            tracker.year_exposed(),
+            &[2030, ICE_FREE_AT_START, STILL_ICE_COVERED]
+        );
         // Readvance covers cell 0 and the initially free cell 1; both get new years later.
         assert_eq!(tracker.update(&[5.0, 3.0, 30.0], 2040, 0..3), 0);
         assert_eq!(tracker.year_exposed(), &[STILL_ICE_COVERED; 3]);

@@ -5,6 +5,7 @@
 //! (`forefield-wasm`) and the command line (`forefield-cli`) are thin front ends over it.
 
 pub mod climate;
+pub mod exposure;
 pub mod geotiff;
 pub mod grid;
 pub mod heightmap_png;
@@ -14,6 +15,7 @@ pub mod mass_balance;
 pub mod render;
 pub mod sample;
 pub mod scenario;
+pub mod simulation;
 pub mod terrain;
 
 pub use grid::{Grid, GridGeometry, MAX_CELLS};
