@@ -69,7 +69,7 @@ export function renderLegend(container, legend, formatNumber) {
 
   const note = document.createElement('p');
   note.className = 'legend-note';
-  note.textContent = 'Colours are drawn over shaded relief (light from the north-west).';
+  note.textContent = 'Over shaded relief lit from the north-west.';
 
   container.append(heading, body, note);
 }

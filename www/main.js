@@ -39,6 +39,9 @@ function showInfo(info) {
   element('fi-crs').textContent = info.epsg == null ? 'not given' : `EPSG:${info.epsg}`;
   element('fi-range').textContent =
     `${formatNumber(info.min_elevation_m, 1)} to ${formatNumber(info.max_elevation_m, 1)} m`;
+  element('fi-nodata').textContent = info.nodata_cells
+    ? `${formatNumber(info.nodata_cells)} cells`
+    : 'none';
   const notes = element('fi-notes');
   notes.replaceChildren(...(info.notes ?? []).map((text) => {
     const item = document.createElement('li');
@@ -69,7 +72,7 @@ function showReadout(cell) {
     // Flat cells have no aspect; the engine may say so with null.
     set('aspect', cell.aspect_deg == null ? 'flat' : `${formatNumber(cell.aspect_deg, 0)}°`);
   }
-  element('readout-hint').textContent = 'Cell centre coordinates; slope and aspect by Horn’s method.';
+  element('readout-hint').textContent = 'At the cell centre; slope and aspect by Horn (1981).';
 }
 
 async function boot() {
