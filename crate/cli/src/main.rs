@@ -18,6 +18,7 @@ USAGE:
     forefield sample [--size N] [--out DIR]   write the invented demo valley as GeoTIFFs
                                               (default size 400 cells of 25 m, DIR sample-grids)
     forefield info FILE.tif                   describe a GeoTIFF grid (size, georeference, range)
+    forefield relief DEM.tif OUT.png          shaded relief with the elevation ramp, one pixel a cell
     forefield serve [--dir DIR] [--port P]    serve a folder on 127.0.0.1 (default www, 8765)
     forefield help                            this text
 
@@ -44,6 +45,7 @@ fn dispatch(args: &[String]) -> Result<()> {
     match command.as_str() {
         "sample" => write_sample(rest),
         "info" => info(rest),
+        "relief" => relief(rest),
         "serve" => {
             let dir = PathBuf::from(flag(rest, "--dir")?.unwrap_or_else(|| "www".into()));
             let port: u16 = match flag(rest, "--port")? {
@@ -142,5 +144,28 @@ fn info(args: &[String]) -> Result<()> {
     if let Some((lo, hi)) = grid.value_range() {
         println!("values: {lo} to {hi}");
     }
+    Ok(())
+}
+
+fn relief(args: &[String]) -> Result<()> {
+    let [dem_path, out_path, ..] = args else {
+        bail!("relief needs DEM.tif and OUT.png")
+    };
+    let bytes = std::fs::read(dem_path).with_context(|| format!("reading {dem_path}"))?;
+    let dem = read_geotiff(&bytes, dem_path)?;
+    let (lo, hi) = forefield_engine::terrain::check_elevations(&dem, dem_path)?;
+    let shade = forefield_engine::terrain::derivatives(&dem, Default::default()).hillshade;
+    let mut rgba = Vec::new();
+    forefield_engine::render::render_shaded(
+        &dem,
+        &shade,
+        forefield_engine::render::ELEVATION_RAMP,
+        lo,
+        hi,
+        &mut rgba,
+    );
+    let png = forefield_engine::render::encode_png(&rgba, dem.n_cols(), dem.n_rows())?;
+    std::fs::write(out_path, png).with_context(|| format!("writing {out_path}"))?;
+    println!("wrote {out_path}");
     Ok(())
 }

@@ -116,6 +116,26 @@ pub fn render_shaded(
     }
 }
 
+/// Error from PNG encoding.
+#[derive(Debug, thiserror::Error)]
+#[error("cannot encode PNG: {0}")]
+pub struct PngError(String);
+
+/// Encodes an RGBA buffer as PNG bytes.
+pub fn encode_png(rgba: &[u8], width: usize, height: usize) -> Result<Vec<u8>, PngError> {
+    let mut out = std::io::Cursor::new(Vec::new());
+    image::write_buffer_with_format(
+        &mut out,
+        rgba,
+        width as u32,
+        height as u32,
+        image::ExtendedColorType::Rgba8,
+        image::ImageFormat::Png,
+    )
+    .map_err(|e| PngError(e.to_string()))?;
+    Ok(out.into_inner())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -97,13 +97,19 @@ fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
     let d = (u - centre_u).abs();
     let floor = 2950.0 - 1550.0 * v.powf(0.85);
     let ridge = 3250.0 - 350.0 * v;
-    let cross = (d / 0.40).min(1.0).powf(1.8);
-    let mut z = floor + (ridge - floor) * cross;
+    // U-shaped trough up to a crest at d = 0.3, falling towards neighbouring valleys beyond.
+    let cross = if d < 0.3 {
+        (d / 0.3).powf(1.5)
+    } else {
+        1.0 - 0.55 * ((d - 0.3) / 0.2).min(1.0).powf(1.3)
+    };
+    let mut centreline = floor;
     // Cirque headwall closing the valley to the north.
-    if v < 0.12 {
-        let t = (0.12 - v) / 0.12;
-        z += 450.0 * t * t * (1.0 - cross);
+    if v < 0.14 {
+        let t = (0.14 - v) / 0.14;
+        centreline += (ridge - floor) * 0.8 * t * t;
     }
+    let mut z = centreline + (ridge - centreline) * cross;
     // A side spur on the west wall and a hanging tributary notch on the east.
     z += 120.0 * gauss(u - 0.18, 0.06) * gauss(v - 0.72, 0.08);
     z -= 160.0 * gauss(u - 0.78, 0.05) * gauss(v - 0.35, 0.04) * (1.0 - gauss(d, 0.1));
@@ -112,27 +118,25 @@ fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
     z += 60.0 * gauss(v - 0.495, 0.018) * gauss(d, 0.12);
     // Older terminal moraine arc below the present tongue.
     z += 28.0 * gauss(v - MORAINE_V - 2.0 * d * d, 0.012) * gauss(d, 0.14);
-    // Rough rock: value noise with octaves at about 1.6 km, 800 m, 400 m and 200 m.
-    let noise = fractal_noise(u * size_km / 1.6, v * size_km / 1.6, 4);
-    z += 45.0 * noise * (0.3 + cross);
+    // Rough rock: value noise with octaves from about 1.6 km down to 100 m.
+    let noise = fractal_noise(u * size_km / 1.6, v * size_km / 1.6, 5);
+    let wall = cross.min(1.0);
+    z += 160.0 * noise * (0.15 + wall);
+    // Gullies and spurs running down both walls.
+    let gully = (v * 38.0 + 3.0 * noise).sin();
+    z += 70.0 * gully * 4.0 * wall * (1.0 - wall);
 
-    let thickness = if v > HEAD_V && v < TONGUE_V {
+    // Ice: a surface sloping down the valley and slightly convex across it; the thickness is
+    // what lies between that surface and the bed, so the margin follows the valley walls.
+    let ice = if v > HEAD_V && v < TONGUE_V {
         let along = ((TONGUE_V - v) / (TONGUE_V - HEAD_V)).sqrt();
-        let head_taper = ((v - HEAD_V) / 0.06).min(1.0);
-        let half_width = 0.10 + 0.04 * (1.0 - v);
-        let across = (1.0 - (d / half_width).powi(2)).max(0.0);
-        230.0 * along * head_taper * across.sqrt()
+        let head_taper = ((v - HEAD_V) / 0.05).min(1.0);
+        let surface = centreline + 190.0 * along * head_taper - 40.0 * (d / 0.12).powi(2);
+        (surface - z).max(0.0)
     } else {
         0.0
     };
-    // The ice fills the basin: thickness grows by what the basin took from the bed.
-    let basin = BASIN_DEPTH_M * gauss(v - 0.42, 0.05) * gauss(d, 0.07);
-    let ice = if thickness > 1.0 {
-        thickness + basin
-    } else {
-        0.0
-    };
-    (z, ice)
+    (z, if ice > 1.0 { ice } else { 0.0 })
 }
 
 fn vegetation_at(bed_m: f64, ice_m: f64, slope_deg: f32, v: f64, idx: usize) -> u8 {
@@ -224,9 +228,28 @@ mod tests {
             .iter()
             .filter(|&&c| c as u8 == vegetation_code::MATURE_FOREST)
             .count();
-        assert!(forest > 200, "{forest} forest cells");
+        assert!(forest > 100, "{forest} forest cells");
         let (lo, hi) = valley.surface_m.value_range().unwrap();
         assert!(lo > 1200.0 && hi < 3900.0, "{lo}..{hi}");
+    }
+
+    #[test]
+    fn basin_under_the_ice_is_closed_by_the_riegel() {
+        // Along the centreline the bed must dip in the basin and rise again before the tongue.
+        let bed_at = |v: f64| {
+            let centre_u = 0.5 + 0.07 * (2.6 * v + 0.4).sin();
+            valley_at(centre_u, v, 10.0).0
+        };
+        let basin_floor = (380..460)
+            .map(|i| bed_at(i as f64 / 1000.0))
+            .fold(f64::MAX, f64::min);
+        let sill = bed_at(0.495);
+        assert!(sill - basin_floor > 15.0, "sill {sill} basin {basin_floor}");
+        let (_, ice_over_basin) = valley_at(0.5 + 0.07 * (2.6f64 * 0.42 + 0.4).sin(), 0.42, 10.0);
+        assert!(
+            ice_over_basin > 100.0,
+            "{ice_over_basin} m of ice over the basin"
+        );
     }
 
     #[test]
