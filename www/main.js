@@ -39,9 +39,10 @@ function showInfo(info) {
   element('fi-crs').textContent = info.epsg == null ? 'not given' : `EPSG:${info.epsg}`;
   element('fi-range').textContent =
     `${formatNumber(info.min_elevation_m, 1)} to ${formatNumber(info.max_elevation_m, 1)} m`;
-  element('fi-nodata').textContent = info.nodata_cells
-    ? `${formatNumber(info.nodata_cells)} cells`
-    : 'none';
+  const nodata = info.nodata_cells ?? 0;
+  element('fi-nodata').textContent = nodata === 0
+    ? 'none'
+    : `${formatNumber(nodata)} ${nodata === 1 ? 'cell' : 'cells'}`;
   const notes = element('fi-notes');
   notes.replaceChildren(...(info.notes ?? []).map((text) => {
     const item = document.createElement('li');

@@ -264,6 +264,21 @@ describe('the Forefield page', () => {
     assert.equal(shownNumber(readout.easting), 310000 + 6.5 * 5);
   });
 
+  test('shows a nodata cell as no data and counts it', async () => {
+    const hole = { col: 2, row: 1 };
+    const nodata = -9999;
+    const tiff = writeFloat32GeoTiff({
+      ...PLANE, width: 6, height: 5, nodata,
+      elevation: (col, row) => (col === hole.col && row === hole.row ? nodata : 2000 + col + row),
+    });
+    const loads = await loadCount();
+    await chooseFiles({ name: 'holed.tif', mimeType: 'image/tiff', buffer: tiff });
+    await expectLoaded(loads);
+    assert.equal(await page.locator('#fi-nodata').innerText(), '1 cell');
+    assert.equal((await pointAt(hole.col, hole.row)).elevation, 'no data');
+    assert.equal(shownNumber((await pointAt(4, 3)).elevation), 2007);
+  });
+
   test('refuses bad files with a message naming them, and keeps the map it had', async () => {
     // Start again from the known plane so the kept map is the one the readout can check.
     const loads = await loadCount();
