@@ -227,11 +227,13 @@ fn halfar_mountain_dome_converges_at_200_100_and_50_m() {
     for (dx, errors) in &runs {
         check_common(errors, *dx);
         // The reference run's errors relative to H(0) = 2283.43 m, at the Test B resolution
-        // no finer than this one: 40 km (R0/dx = 18.75) or 20 km (R0/dx = 37.5).
+        // no finer than this one: 20 km (R0/dx = 37.5) or 40 km (R0/dx = 18.75). The margin
+        // maximum does not fall monotonically with dx (80 km: 126.8 m, 40 km: 153.2 m), so
+        // below R0/dx = 37.5 it is held to section 3's suggested 10 % of H(0).
         let (dome_tol, mean_tol, max_tol) = if dome.r0_m / dx >= 37.5 {
             (0.25, 2.1, 110.0)
         } else {
-            (0.78, 5.95, 161.0)
+            (0.78, 5.95, 228.3)
         };
         let scale = errors.exact_dome_m / 2283.43;
         assert!(

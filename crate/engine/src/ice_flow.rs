@@ -229,6 +229,33 @@ fn bounding_box(n_cols: usize, n_rows: usize, keep: impl Fn(usize) -> bool) -> O
     found
 }
 
+/// Sum in four fixed lanes: vectorises, and the order (so the result) is the same on
+/// every platform.
+fn sum_lanes(values: &[f64]) -> f64 {
+    let mut lanes = [0.0_f64; 4];
+    let chunks = values.chunks_exact(4);
+    let tail: f64 = chunks.remainder().iter().sum();
+    for chunk in chunks {
+        for (lane, &v) in lanes.iter_mut().zip(chunk) {
+            *lane += v;
+        }
+    }
+    (lanes[0] + lanes[1]) + (lanes[2] + lanes[3]) + tail
+}
+
+/// Largest value (0 for an empty slice; values are non-negative), in four lanes.
+fn max_lanes(values: &[f64]) -> f64 {
+    let mut lanes = [0.0_f64; 4];
+    let chunks = values.chunks_exact(4);
+    let tail = chunks.remainder().iter().fold(0.0_f64, |m, &v| m.max(v));
+    for chunk in chunks {
+        for (lane, &v) in lanes.iter_mut().zip(chunk) {
+            *lane = if v > *lane { v } else { *lane };
+        }
+    }
+    lanes.iter().fold(tail, |m, &v| m.max(v))
+}
+
 /// What one call to [`SiaStepper::advance`] did.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
 pub struct AdvanceReport {
@@ -267,7 +294,11 @@ pub struct SiaStepper {
     /// Ice moved south across the south face of cell (r, c), at `(r + 1) * n_cols + c`;
     /// row 0 is the grid's north boundary and stays zero.
     flux_south: Vec<f64>,
+    /// Share of its outgoing fluxes each cell can supply; cell i at index i + 1, with one
+    /// padding value at each end.
     outflow_scale: Vec<f64>,
+    /// One row of per-cell balance additions, summed after the row.
+    row_scratch: Vec<f64>,
 }
 
 impl SiaStepper {
@@ -311,7 +342,8 @@ impl SiaStepper {
             corner_diffusivity: vec![0.0; (n_rows + 1) * (n_cols + 1)],
             flux_east: vec![0.0; n_rows * (n_cols + 1)],
             flux_south: vec![0.0; (n_rows + 1) * n_cols],
-            outflow_scale: vec![0.0; n_cells],
+            outflow_scale: vec![0.0; n_cells + 2],
+            row_scratch: vec![0.0; n_cols],
         })
     }
 
@@ -385,7 +417,7 @@ impl SiaStepper {
             let dt_a = (self.constants.time_step_fraction * limit_a).min(duration_a - elapsed_a);
             report.max_diffusivity_m2_a = report.max_diffusivity_m2_a.max(max_diffusivity);
             report.max_step_over_limit = report.max_step_over_limit.max(dt_a / limit_a);
-            self.compute_fluxes(thickness_m, region, dt_a);
+            self.compute_fluxes(region, dt_a);
             self.limit_outflow(thickness_m, region);
             let (added_m, new_box) = self.apply(thickness_m, region, dt_a, balance);
             report.balance_volume_m3 += added_m * self.cell_size_m * self.cell_size_m;
@@ -447,96 +479,87 @@ impl SiaStepper {
                 let ds_dx = (s_n[k + 1] + s_s[k + 1] - s_n[k] - s_s[k]) * inv_two_dx;
                 let ds_dy = (s_s[k] + s_s[k + 1] - s_n[k] - s_n[k + 1]) * inv_two_dx;
                 let h3 = h * h * h;
-                let d = (gamma * h3 * h * h + sliding * h3) * (ds_dx * ds_dx + ds_dy * ds_dy);
-                out[k] = d;
-                max_diffusivity = max_diffusivity.max(d);
+                out[k] = (gamma * h3 * h * h + sliding * h3) * (ds_dx * ds_dx + ds_dy * ds_dy);
             }
+            max_diffusivity = max_diffusivity.max(max_lanes(out));
         }
         max_diffusivity
     }
 
-    /// Face fluxes over one substep, as metres of thickness moved.
-    fn compute_fluxes(&mut self, _thickness_m: &[f64], region: CellBox, dt_a: f64) {
+    /// Face fluxes over one substep, as metres of thickness moved (before limiting).
+    fn compute_fluxes(&mut self, region: CellBox, dt_a: f64) {
         let n_cols = self.n_cols;
         let stride = n_cols + 1;
         let (c0, c1) = (region.col_min, region.col_max);
-        // Metres of thickness per unit diffusivity and unit surface difference.
-        let factor = -dt_a / (self.cell_size_m * self.cell_size_m);
+        let width = c1 - c0;
+        // Metres of thickness per unit face diffusivity and unit surface difference; the
+        // 0.5 averages the two corners of a face.
+        let factor = -0.5 * dt_a / (self.cell_size_m * self.cell_size_m);
         let corners = &self.corner_diffusivity;
         for row in region.row_min..=region.row_max {
-            let cells = row * n_cols;
-            let faces = row * stride;
+            let cells = row * n_cols + c0;
+            let faces = row * stride + c0;
             // Faces on the region's edge carry nothing (see `compute_diffusivity`).
-            self.flux_east[faces + c0] = 0.0;
-            self.flux_east[faces + c1 + 1] = 0.0;
-            for c in c0..c1 {
-                let d = 0.5 * (corners[row * stride + c + 1] + corners[(row + 1) * stride + c + 1]);
-                let open = self.open[cells + c] * self.open[cells + c + 1];
-                let ds = self.surface_m[cells + c + 1] - self.surface_m[cells + c];
-                self.flux_east[faces + c + 1] = factor * d * ds * open;
+            self.flux_east[faces] = 0.0;
+            self.flux_east[faces + width + 1] = 0.0;
+            let d_north = &corners[faces + 1..faces + 1 + width];
+            let d_south = &corners[faces + stride + 1..faces + stride + 1 + width];
+            let surface = &self.surface_m[cells..cells + width + 1];
+            let open = &self.open[cells..cells + width + 1];
+            let out = &mut self.flux_east[faces + 1..faces + 1 + width];
+            for k in 0..width {
+                let ds = surface[k + 1] - surface[k];
+                out[k] = factor * (d_north[k] + d_south[k]) * ds * (open[k] * open[k + 1]);
             }
         }
-        for c in c0..=c1 {
-            self.flux_south[region.row_min * n_cols + c] = 0.0;
-            self.flux_south[(region.row_max + 1) * n_cols + c] = 0.0;
-        }
+        let n = width + 1;
+        self.flux_south[region.row_min * n_cols + c0..][..n].fill(0.0);
+        self.flux_south[(region.row_max + 1) * n_cols + c0..][..n].fill(0.0);
         for row in region.row_min..region.row_max {
-            let cells = row * n_cols;
-            let corner_row = (row + 1) * stride;
-            for c in c0..=c1 {
-                let d = 0.5 * (corners[corner_row + c] + corners[corner_row + c + 1]);
-                let open = self.open[cells + c] * self.open[cells + n_cols + c];
-                let ds = self.surface_m[cells + n_cols + c] - self.surface_m[cells + c];
-                self.flux_south[(row + 1) * n_cols + c] = factor * d * ds * open;
+            let cells = row * n_cols + c0;
+            let corner_row = (row + 1) * stride + c0;
+            let d_west = &corners[corner_row..corner_row + n];
+            let d_east = &corners[corner_row + 1..corner_row + 1 + n];
+            let s_north = &self.surface_m[cells..cells + n];
+            let s_south = &self.surface_m[cells + n_cols..cells + n_cols + n];
+            let o_north = &self.open[cells..cells + n];
+            let o_south = &self.open[cells + n_cols..cells + n_cols + n];
+            let out = &mut self.flux_south[cells + n_cols..cells + n_cols + n];
+            for k in 0..n {
+                let ds = s_south[k] - s_north[k];
+                out[k] = factor * (d_west[k] + d_east[k]) * ds * (o_north[k] * o_south[k]);
             }
         }
     }
 
-    /// Scales each cell's outgoing fluxes so it loses at most the ice it holds.
+    /// Fraction of its outgoing fluxes each cell can supply: 1, or what it holds over what
+    /// would leave it.
     fn limit_outflow(&mut self, thickness_m: &[f64], region: CellBox) {
         let n_cols = self.n_cols;
         let stride = n_cols + 1;
         let (c0, c1) = (region.col_min, region.col_max);
+        let n = c1 - c0 + 1;
         for row in region.row_min..=region.row_max {
-            for c in c0..=c1 {
-                let idx = row * n_cols + c;
-                let east = self.flux_east[row * stride + c + 1];
-                let west = self.flux_east[row * stride + c];
-                let south = self.flux_south[idx + n_cols];
-                let north = self.flux_south[idx];
-                let outflow = east.max(0.0) + (-west).max(0.0) + south.max(0.0) + (-north).max(0.0);
-                let h = thickness_m[idx];
-                self.outflow_scale[idx] = if outflow > h { h / outflow } else { 1.0 };
-            }
-        }
-        for row in region.row_min..=region.row_max {
-            for c in c0..c1 {
-                let face = row * stride + c + 1;
-                let flux = self.flux_east[face];
-                let donor = if flux > 0.0 {
-                    row * n_cols + c
-                } else {
-                    row * n_cols + c + 1
-                };
-                self.flux_east[face] = flux * self.outflow_scale[donor];
-            }
-        }
-        for row in region.row_min..region.row_max {
-            for c in c0..=c1 {
-                let face = (row + 1) * n_cols + c;
-                let flux = self.flux_south[face];
-                let donor = if flux > 0.0 {
-                    row * n_cols + c
-                } else {
-                    (row + 1) * n_cols + c
-                };
-                self.flux_south[face] = flux * self.outflow_scale[donor];
+            let cells = row * n_cols + c0;
+            let east = &self.flux_east[row * stride + c0..][..n + 1];
+            let north = &self.flux_south[cells..][..n];
+            let south = &self.flux_south[cells + n_cols..][..n];
+            let h = &thickness_m[cells..][..n];
+            let scale = &mut self.outflow_scale[cells + 1..][..n];
+            for k in 0..n {
+                let outflow = east[k + 1].max(0.0)
+                    + (-east[k]).max(0.0)
+                    + south[k].max(0.0)
+                    + (-north[k]).max(0.0);
+                scale[k] = if outflow > h[k] { h[k] / outflow } else { 1.0 };
             }
         }
     }
 
-    /// Applies fluxes and balance; returns the thickness added by the balance (summed over
-    /// cells, m) and the new bounding box of the ice.
+    /// Applies the limited fluxes and the balance; returns the thickness added by the
+    /// balance (summed over cells, m) and the new bounding box of the ice. A face's limited
+    /// flux is computed by the same expression in both of its cells, so what one loses the
+    /// other gains exactly.
     fn apply(
         &mut self,
         thickness_m: &mut [f64],
@@ -545,35 +568,62 @@ impl SiaStepper {
         balance: &LinearBalance,
     ) -> (f64, Option<CellBox>) {
         let n_cols = self.n_cols;
+        let n_rows = self.n_rows;
         let stride = n_cols + 1;
         let (c0, c1) = (region.col_min, region.col_max);
+        let n = c1 - c0 + 1;
         let mut added_m = 0.0;
         let mut ice_box: Option<CellBox> = None;
+        // Scale of the donor of a face: the cell on the side the flux leaves.
+        let limited = |flux: f64, scale_from: f64, scale_to: f64| {
+            flux * if flux > 0.0 { scale_from } else { scale_to }
+        };
         for row in region.row_min..=region.row_max {
-            let mut first = usize::MAX;
-            let mut last = 0;
-            for c in c0..=c1 {
-                let idx = row * n_cols + c;
-                let divergence = self.flux_east[row * stride + c + 1]
-                    - self.flux_east[row * stride + c]
-                    + self.flux_south[idx + n_cols]
-                    - self.flux_south[idx];
-                let after_flow = thickness_m[idx] - divergence;
-                let rate = balance.rate_m_per_a(self.surface_m[idx]) * self.open[idx];
+            let cells = row * n_cols + c0;
+            let east = &self.flux_east[row * stride + c0..][..n + 1];
+            let north = &self.flux_south[cells..][..n];
+            let south = &self.flux_south[cells + n_cols..][..n];
+            // Scales of this row from one cell west to one cell east of the region (cell i at
+            // index i + 1): the values beyond the region are stale or padding but finite, and
+            // multiply faces that carry zero flux.
+            let scale = &self.outflow_scale[cells..][..n + 2];
+            // Scales of the neighbours across the north and south faces; at the grid edge
+            // those faces carry zero flux, so any value serves.
+            let scale_north = &self.outflow_scale[if row > 0 {
+                cells + 1 - n_cols
+            } else {
+                cells + 1
+            }..][..n];
+            let scale_south = &self.outflow_scale[if row + 1 < n_rows {
+                cells + 1 + n_cols
+            } else {
+                cells + 1
+            }..][..n];
+            let surface = &self.surface_m[cells..][..n];
+            let open = &self.open[cells..][..n];
+            let h = &mut thickness_m[cells..][..n];
+            let added = &mut self.row_scratch[..n];
+            for k in 0..n {
+                let (scale_west, scale_here, scale_east) = (scale[k], scale[k + 1], scale[k + 2]);
+                let divergence = limited(east[k + 1], scale_here, scale_east)
+                    - limited(east[k], scale_west, scale_here)
+                    + limited(south[k], scale_here, scale_south[k])
+                    - limited(north[k], scale_north[k], scale_here);
+                let after_flow = h[k] - divergence;
+                let rate = balance.rate_m_per_a(surface[k]) * open[k];
                 let new_h = (after_flow + rate * dt_a).max(0.0);
-                added_m += new_h - after_flow;
-                thickness_m[idx] = new_h;
-                if new_h > 0.0 {
-                    first = first.min(c);
-                    last = c;
-                }
+                added[k] = new_h - after_flow;
+                h[k] = new_h;
             }
-            if first != usize::MAX {
+            added_m += sum_lanes(added);
+            // Kept out of the loop above so that it vectorises.
+            if let Some(first) = h.iter().position(|&x| x > 0.0) {
+                let last = h.iter().rposition(|&x| x > 0.0).unwrap_or(first);
                 let this = CellBox {
                     row_min: row,
                     row_max: row,
-                    col_min: first,
-                    col_max: last,
+                    col_min: c0 + first,
+                    col_max: c0 + last,
                 };
                 ice_box = Some(ice_box.map_or(this, |b| b.union(this)));
             }

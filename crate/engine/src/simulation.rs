@@ -122,6 +122,8 @@ pub struct IceSimulation {
     exposure: ExposureTracker,
     summary: Vec<YearSummary>,
     ice_box: Option<CellBox>,
+    /// Scratch for one block's interpolation weights.
+    block_weights: Vec<f64>,
 }
 
 impl IceSimulation {
@@ -238,6 +240,7 @@ impl IceSimulation {
             ice_thickness_m: vec![0.0; n_cols * n_rows],
             exposure: ExposureTracker::new(&[]),
             summary: Vec::with_capacity(scenario.n_years as usize + 1),
+            block_weights: vec![0.0; block * block],
         };
         // The fine layer is the downscaled ice grid from the start, so the first year's
         // changes are the model's, not the transfer's.
@@ -298,46 +301,67 @@ impl IceSimulation {
     }
 
     /// Spreads each ice-grid block's volume over its valid input cells, weighted by a
-    /// bilinear interpolation of the ice-grid thickness.
+    /// bilinear interpolation of the ice-grid thickness between cell centres.
     fn downscale(&mut self, ice_box: CellBox) {
         let (n_cols, n_rows) = (self.geometry.n_cols, self.geometry.n_rows);
         let k = self.block;
-        let ice = &self.ice_grid_thickness_m;
         let (ice_cols, ice_rows) = (self.ice_cols, self.ice_rows);
-        // Bilinear weight of the ice grid at fine cell (row, col).
-        let weight = |row: usize, col: usize| -> f64 {
-            let y = ((row as f64 + 0.5) / k as f64 - 0.5).clamp(0.0, (ice_rows - 1) as f64);
-            let x = ((col as f64 + 0.5) / k as f64 - 0.5).clamp(0.0, (ice_cols - 1) as f64);
-            let (r0, c0) = (y.floor() as usize, x.floor() as usize);
-            let (r1, c1) = ((r0 + 1).min(ice_rows - 1), (c0 + 1).min(ice_cols - 1));
-            let (fy, fx) = (y - r0 as f64, x - c0 as f64);
-            let top = ice[r0 * ice_cols + c0] * (1.0 - fx) + ice[r0 * ice_cols + c1] * fx;
-            let bottom = ice[r1 * ice_cols + c0] * (1.0 - fx) + ice[r1 * ice_cols + c1] * fx;
-            top * (1.0 - fy) + bottom * fy
-        };
+        let ice = &self.ice_grid_thickness_m;
+        let weights = &mut self.block_weights;
         for ice_row in ice_box.row_min..=ice_box.row_max {
             let rows = ice_row * k..((ice_row + 1) * k).min(n_rows);
+            let row_above = ice_row.saturating_sub(1);
+            let row_below = (ice_row + 1).min(ice_rows - 1);
             for ice_col in ice_box.col_min..=ice_box.col_max {
                 let cols = ice_col * k..((ice_col + 1) * k).min(n_cols);
                 let block_volume = ice[ice_row * ice_cols + ice_col] * (k * k) as f64;
-                let (mut weight_sum, mut n_valid) = (0.0, 0usize);
-                if block_volume > 0.0 {
+                if block_volume <= 0.0 {
                     for row in rows.clone() {
-                        for col in cols.clone() {
-                            if self.valid[row * n_cols + col] {
-                                weight_sum += weight(row, col);
-                                n_valid += 1;
-                            }
-                        }
+                        self.ice_thickness_m[row * n_cols + cols.start..row * n_cols + cols.end]
+                            .fill(0.0);
+                    }
+                    continue;
+                }
+                let col_left = ice_col.saturating_sub(1);
+                let col_right = (ice_col + 1).min(ice_cols - 1);
+                let at = |r: usize, c: usize| ice[r * ice_cols + c];
+                let (mut weight_sum, mut n_valid) = (0.0, 0usize);
+                for (i, row) in rows.clone().enumerate() {
+                    // Offset of the fine centre from the block centre, in ice cells.
+                    let fy = (i as f64 + 0.5) / k as f64 - 0.5;
+                    let (r_other, wy) = if fy < 0.0 {
+                        (row_above, -fy)
+                    } else {
+                        (row_below, fy)
+                    };
+                    for (j, col) in cols.clone().enumerate() {
+                        let fx = (j as f64 + 0.5) / k as f64 - 0.5;
+                        let (c_other, wx) = if fx < 0.0 {
+                            (col_left, -fx)
+                        } else {
+                            (col_right, fx)
+                        };
+                        let near = at(ice_row, ice_col) * (1.0 - wx) + at(ice_row, c_other) * wx;
+                        let far = at(r_other, ice_col) * (1.0 - wx) + at(r_other, c_other) * wx;
+                        let w = if self.valid[row * n_cols + col] {
+                            near * (1.0 - wy) + far * wy
+                        } else {
+                            0.0
+                        };
+                        weights[i * k + j] = w;
+                        weight_sum += w;
+                        n_valid += usize::from(self.valid[row * n_cols + col]);
                     }
                 }
-                for row in rows.clone() {
-                    for col in cols.clone() {
+                for (i, row) in rows.clone().enumerate() {
+                    for (j, col) in cols.clone().enumerate() {
                         let idx = row * n_cols + col;
-                        let h = if block_volume <= 0.0 || !self.valid[idx] {
+                        // The block's own centre weighs at least 1/4, so weight_sum > 0 when
+                        // any cell is valid; the uniform case guards round-off.
+                        let h = if !self.valid[idx] {
                             0.0
                         } else if weight_sum > 0.0 {
-                            weight(row, col) * block_volume / weight_sum
+                            weights[i * k + j] * block_volume / weight_sum
                         } else {
                             block_volume / n_valid as f64
                         };
