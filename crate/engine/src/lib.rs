@@ -10,6 +10,7 @@ pub mod geotiff;
 pub mod grid;
 pub mod heightmap_png;
 pub mod ice_flow;
+pub mod ice_outline;
 pub mod load_error;
 pub mod mass_balance;
 pub mod render;

@@ -11,6 +11,7 @@ use thiserror::Error;
 
 use crate::climate::ClimateParams;
 use crate::ice_flow::FlowParams;
+use crate::ice_outline::PlasticityParams;
 use crate::mass_balance::MassBalanceParams;
 
 /// The scenario layout this engine reads and writes.
@@ -161,6 +162,9 @@ pub struct Scenario {
     pub mass_balance: MassBalanceParams,
     #[serde(default)]
     pub flow: FlowParams,
+    /// Thickness estimate from a glacier mask, used when `grids.glacier_mask` is given.
+    #[serde(default)]
+    pub outline: PlasticityParams,
     /// Seed for every random choice of the run, 0 to 2^53 - 1. Same seed, same numbers.
     #[serde(default)]
     pub seed: u64,
@@ -178,6 +182,7 @@ impl Default for Scenario {
             climate: ClimateParams::default(),
             mass_balance: MassBalanceParams::default(),
             flow: FlowParams::default(),
+            outline: PlasticityParams::default(),
             seed: 0,
         }
     }
@@ -256,6 +261,7 @@ impl Scenario {
         self.climate.validate()?;
         self.mass_balance.validate()?;
         self.flow.validate()?;
+        self.outline.validate()?;
         Ok(())
     }
 
@@ -277,8 +283,7 @@ mod tests {
 
     #[test]
     fn round_trips_through_json() {
-        let mut scenario = Scenario::default();
-        scenario.output_years = vec![2030, 2100];
+        let mut scenario = Scenario { output_years: vec![2030, 2100], ..Scenario::default() };
         scenario.grids.bed_elevation = Some("bed.tif".to_string());
         let back = Scenario::from_json(&scenario.to_json()).expect("valid");
         assert_eq!(back, scenario);

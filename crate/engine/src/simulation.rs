@@ -169,7 +169,7 @@ impl IceSimulation {
                 continue;
             }
             let h = ice_thickness_m.values[idx];
-            if !(h >= 0.0 && h <= MAX_INITIAL_THICKNESS_M) {
+            if !(0.0..=MAX_INITIAL_THICKNESS_M).contains(&h) {
                 return Err(SimulationError::ValueOutOfRange {
                     layer: "ice thickness",
                     row,
@@ -539,8 +539,7 @@ mod tests {
                 .map(|i| if (i / 22) % 7 > 2 { 30.0 } else { 0.0 })
                 .collect(),
         );
-        let mut scenario = Scenario::default();
-        scenario.n_years = 2;
+        let scenario = Scenario { n_years: 2, ..Scenario::default() };
         let simulation = IceSimulation::new(&bed, &thickness, &scenario).expect("valid");
         assert_eq!(simulation.ice_grid_block(), 4);
         let fine_volume: f64 = simulation
