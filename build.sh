@@ -137,14 +137,16 @@ cmd_bench() {
         target/release/forefield sample --size 1024 --out sample-grids/large
     fi
     say "native benchmark"
-    target/release/forefield bench --grids sample-grids/large
+    local native
+    native="$(target/release/forefield bench --grids sample-grids/large)"
+    echo "$native"
     local port
     port="$(free_port)"
     rm -rf www/bench-grids && mkdir -p www/bench-grids && cp sample-grids/large/*.tif www/bench-grids/
     start_server "$port"
     trap 'kill $SERVER_PID 2>/dev/null || true; rm -rf "$ROOT/www/bench-grids"' EXIT
     say "wasm benchmark (headless Debian chromium)"
-    (cd tests/browser && FOREFIELD_URL="http://127.0.0.1:$port/" node bench.mjs)
+    (cd tests/browser && NATIVE_BENCH="$native" FOREFIELD_URL="http://127.0.0.1:$port/" node bench.mjs)
 }
 
 case "${1:-}" in

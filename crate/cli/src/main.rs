@@ -1,5 +1,7 @@
 //! `forefield`: the native command line over the engine (sample data, grid info, static server).
 
+mod bench;
+mod run;
 mod serve;
 
 use std::path::{Path, PathBuf};
@@ -19,6 +21,8 @@ USAGE:
                                               (default size 400 cells of 25 m, DIR sample-grids)
     forefield info FILE.tif                   describe a GeoTIFF grid (size, georeference, range)
     forefield relief DEM.tif OUT.png          shaded relief with the elevation ramp, one pixel a cell
+    forefield run SCENARIO.json [--out DIR]   run the ice model of a scenario (default DIR out)
+    forefield bench [--grids DIR]             time the 200-year ice run (default sample-grids/large)
     forefield serve [--dir DIR] [--port P]    serve a folder on 127.0.0.1 (default www, 8765)
     forefield help                            this text
 
@@ -45,6 +49,8 @@ fn dispatch(args: &[String]) -> Result<()> {
     match command.as_str() {
         "sample" => write_sample(rest),
         "info" => info(rest),
+        "run" => run::run(rest),
+        "bench" => bench::bench(rest),
         "relief" => relief(rest),
         "serve" => {
             let dir = PathBuf::from(flag(rest, "--dir")?.unwrap_or_else(|| "www".into()));

@@ -4,6 +4,8 @@
 use forefield_engine::geotiff::read_geotiff;
 use forefield_engine::heightmap_png::read_heightmap_png;
 use forefield_engine::render::{render_shaded, Legend, ELEVATION_RAMP};
+use forefield_engine::scenario::Scenario;
+use forefield_engine::simulation::{bed_from_surface, IceSimulation};
 use forefield_engine::terrain::{self, Sun, TerrainDerivatives};
 use forefield_engine::{Grid, LoadError};
 use serde::Serialize;
@@ -211,4 +213,75 @@ fn to_js<T: Serialize>(value: &T) -> Result<JsValue, JsError> {
 
 fn to_js_error(error: LoadError) -> JsError {
     JsError::new(&error.to_string())
+}
+
+/// A running ice simulation over grids handed in as GeoTIFF bytes; the page steps it year by
+/// year (so it can report progress and stop) and reads layers as views into wasm memory.
+#[wasm_bindgen]
+pub struct IceRun {
+    simulation: IceSimulation,
+}
+
+#[wasm_bindgen]
+impl IceRun {
+    /// Builds a run from a scenario (JSON text), a surface DEM and an ice-thickness grid.
+    #[wasm_bindgen(constructor)]
+    pub fn new(
+        scenario_json: &str,
+        surface_bytes: &[u8],
+        surface_name: &str,
+        ice_bytes: &[u8],
+        ice_name: &str,
+    ) -> Result<IceRun, JsError> {
+        let scenario = Scenario::from_json(scenario_json)
+            .map_err(|e| JsError::new(&format!("scenario: {e}")))?;
+        let surface = read_geotiff(surface_bytes, surface_name).map_err(to_js_error)?;
+        let ice = read_geotiff(ice_bytes, ice_name).map_err(to_js_error)?;
+        let bed = bed_from_surface(&surface, &ice).map_err(|e| JsError::new(&e.to_string()))?;
+        let simulation =
+            IceSimulation::new(&bed, &ice, &scenario).map_err(|e| JsError::new(&e.to_string()))?;
+        Ok(IceRun { simulation })
+    }
+
+    /// Simulates up to `n_years` more years; returns how many were simulated (0 when done).
+    #[wasm_bindgen(js_name = stepYears)]
+    pub fn step_years(&mut self, n_years: u32) -> u32 {
+        let mut done = 0;
+        while done < n_years && self.simulation.step_year().is_some() {
+            done += 1;
+        }
+        done
+    }
+
+    /// Year whose end state is held.
+    pub fn year(&self) -> i32 {
+        self.simulation.year()
+    }
+
+    #[wasm_bindgen(js_name = endYear)]
+    pub fn end_year(&self) -> i32 {
+        self.simulation.end_year()
+    }
+
+    /// Yearly summary rows so far (start state first).
+    pub fn summary(&self) -> Result<JsValue, JsError> {
+        to_js(&self.simulation.summary())
+    }
+
+    #[wasm_bindgen(js_name = nCells)]
+    pub fn n_cells(&self) -> usize {
+        self.simulation.geometry().n_cells()
+    }
+
+    /// Address of the `f32` ice-thickness layer (m), `nCells()` long.
+    #[wasm_bindgen(js_name = iceThicknessPtr)]
+    pub fn ice_thickness_ptr(&self) -> *const f32 {
+        self.simulation.ice_thickness_m().as_ptr()
+    }
+
+    /// Address of the `i32` exposure-year layer, `nCells()` long.
+    #[wasm_bindgen(js_name = yearExposedPtr)]
+    pub fn year_exposed_ptr(&self) -> *const i32 {
+        self.simulation.year_exposed().as_ptr()
+    }
 }

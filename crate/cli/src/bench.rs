@@ -1,0 +1,63 @@
+//! `forefield bench`: native timing of the 200-year ice run on the large sample valley,
+//! printed as JSON lines (medians over repeated runs, since shared machines are noisy).
+
+use std::path::PathBuf;
+use std::time::Instant;
+
+use anyhow::{Context, Result};
+use forefield_engine::geotiff::read_geotiff;
+use forefield_engine::scenario::Scenario;
+use forefield_engine::simulation::{bed_from_surface, IceSimulation};
+
+/// The scenario both the native and the wasm benchmark run (kept in step with bench.mjs).
+pub const BENCH_SCENARIO_JSON: &str = r#"{"version": 1, "name": "benchmark", "n_years": 200}"#;
+const REPEATS: usize = 3;
+
+pub fn bench(args: &[String]) -> Result<()> {
+    let dir =
+        PathBuf::from(crate::flag(args, "--grids")?.unwrap_or_else(|| "sample-grids/large".into()));
+    let read = |name: &str| -> Result<_> {
+        let path = dir.join(name);
+        let bytes = std::fs::read(&path).with_context(|| format!("reading {}", path.display()))?;
+        Ok(read_geotiff(&bytes, &path.display().to_string())?)
+    };
+    let surface = read("valley_dem.tif")?;
+    let ice = read("valley_ice_thickness.tif")?;
+    let bed = bed_from_surface(&surface, &ice)?;
+    let scenario = Scenario::from_json(BENCH_SCENARIO_JSON)?;
+    let mut seconds = Vec::with_capacity(REPEATS);
+    let mut last = None;
+    for _ in 0..REPEATS {
+        // Only the yearly steps are timed, as in bench.mjs, where setup also decodes GeoTIFFs.
+        let mut simulation = IceSimulation::new(&bed, &ice, &scenario)?;
+        let started = Instant::now();
+        while simulation.step_year().is_some() {}
+        seconds.push(started.elapsed().as_secs_f64());
+        last = Some(simulation);
+    }
+    let simulation = last.expect("REPEATS > 0");
+    seconds.sort_by(f64::total_cmp);
+    let median = seconds[REPEATS / 2];
+    let years = simulation.summary().len().saturating_sub(1).max(1);
+    let cell_updates: u64 = simulation
+        .summary()
+        .iter()
+        .map(|row| row.cell_updates)
+        .sum();
+    let start = simulation.summary()[0];
+    let end = simulation.summary()[years];
+    let g = simulation.geometry();
+    println!(
+        "{{\"bench\":\"ice_run\",\"side\":\"native\",\"grid\":\"{}x{}\",\"years\":{years},\"repeats\":{REPEATS},\"seconds_median\":{median:.4},\"seconds_min\":{:.4},\"seconds_max\":{:.4},\"seconds_per_year\":{:.6},\"ice_cell_updates_per_second\":{:.0},\"ice_cells_start\":{},\"ice_area_km2_start\":{:.3},\"ice_area_km2_end\":{:.3}}}",
+        g.n_cols,
+        g.n_rows,
+        seconds[0],
+        seconds[REPEATS - 1],
+        median / years as f64,
+        cell_updates as f64 / median,
+        (start.ice_area_km2 * 1e6 / g.cell_area_m2()).round(),
+        start.ice_area_km2,
+        end.ice_area_km2,
+    );
+    Ok(())
+}

@@ -1,0 +1,69 @@
+// The wasm side of `./build.sh bench`: the same 200-year ice run as `forefield bench`, inside
+// headless Debian Chromium, printed as JSON lines; with NATIVE_BENCH (the native JSON line)
+// set, also the wasm/native ratio. Medians over repeats, since shared machines are noisy.
+
+import { chromium } from 'playwright-core';
+
+const URL_BASE = process.env.FOREFIELD_URL ?? 'http://127.0.0.1:8765/';
+// Kept in step with BENCH_SCENARIO_JSON in crate/cli/src/bench.rs.
+const SCENARIO_JSON = '{"version": 1, "name": "benchmark", "n_years": 200}';
+const REPEATS = 3;
+
+const browser = await chromium.launch({
+  executablePath: '/usr/bin/chromium',
+  args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
+    '--disable-component-update', '--no-first-run'],
+});
+try {
+  const page = await browser.newPage();
+  await page.goto(new URL('pkg/forefield_wasm.js', URL_BASE).href);
+  const result = await page.evaluate(async ({ scenario, repeats }) => {
+    const wasm = await import('/pkg/forefield_wasm.js');
+    await wasm.default();
+    const fetchBytes = async (name) => new Uint8Array(await (await fetch(`/bench-grids/${name}`)).arrayBuffer());
+    const surface = await fetchBytes('valley_dem.tif');
+    const ice = await fetchBytes('valley_ice_thickness.tif');
+    const seconds = [];
+    let summary = null;
+    for (let i = 0; i < repeats; i += 1) {
+      // Only the yearly steps are timed, as natively; setup here also decodes the GeoTIFFs.
+      const run = new wasm.IceRun(scenario, surface, 'valley_dem.tif', ice, 'valley_ice_thickness.tif');
+      const started = performance.now();
+      while (run.stepYears(10) > 0) { /* all years */ }
+      seconds.push((performance.now() - started) / 1000);
+      summary = run.summary();
+      run.free();
+    }
+    return { seconds, summary };
+  }, { scenario: SCENARIO_JSON, repeats: REPEATS });
+
+  const seconds = [...result.seconds].sort((a, b) => a - b);
+  const median = seconds[Math.floor(REPEATS / 2)];
+  const years = result.summary.length - 1;
+  const updates = result.summary.reduce((sum, row) => sum + row.cell_updates, 0);
+  const line = {
+    bench: 'ice_run',
+    side: 'wasm',
+    years,
+    repeats: REPEATS,
+    seconds_median: Number(median.toFixed(4)),
+    seconds_min: Number(seconds[0].toFixed(4)),
+    seconds_max: Number(seconds[REPEATS - 1].toFixed(4)),
+    seconds_per_year: Number((median / years).toFixed(6)),
+    ice_cell_updates_per_second: Math.round(updates / median),
+    ice_area_km2_start: Number(result.summary[0].ice_area_km2.toFixed(3)),
+    ice_area_km2_end: Number(result.summary[years].ice_area_km2.toFixed(3)),
+  };
+  console.log(JSON.stringify(line));
+  if (process.env.NATIVE_BENCH) {
+    const native = JSON.parse(process.env.NATIVE_BENCH);
+    console.log(JSON.stringify({
+      bench: 'ice_run',
+      side: 'ratio',
+      wasm_over_native: Number((median / native.seconds_median).toFixed(3)),
+      same_end_area: Math.abs(native.ice_area_km2_end - line.ice_area_km2_end) < 1e-3,
+    }));
+  }
+} finally {
+  await browser.close();
+}
