@@ -1,5 +1,9 @@
 //! Reference checks of the engine against published solutions and independent references.
 
 mod geotiff_read;
+mod ice_conservation;
 mod ice_halfar;
+mod ice_mass_balance;
+mod ice_outline;
+mod ice_response;
 mod terrain_horn;

@@ -283,7 +283,10 @@ mod tests {
 
     #[test]
     fn round_trips_through_json() {
-        let mut scenario = Scenario { output_years: vec![2030, 2100], ..Scenario::default() };
+        let mut scenario = Scenario {
+            output_years: vec![2030, 2100],
+            ..Scenario::default()
+        };
         scenario.grids.bed_elevation = Some("bed.tif".to_string());
         let back = Scenario::from_json(&scenario.to_json()).expect("valid");
         assert_eq!(back, scenario);

@@ -539,7 +539,10 @@ mod tests {
                 .map(|i| if (i / 22) % 7 > 2 { 30.0 } else { 0.0 })
                 .collect(),
         );
-        let scenario = Scenario { n_years: 2, ..Scenario::default() };
+        let scenario = Scenario {
+            n_years: 2,
+            ..Scenario::default()
+        };
         let simulation = IceSimulation::new(&bed, &thickness, &scenario).expect("valid");
         assert_eq!(simulation.ice_grid_block(), 4);
         let fine_volume: f64 = simulation
