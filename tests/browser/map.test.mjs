@@ -4,15 +4,12 @@
 
 import { after, before, describe, test } from 'node:test';
 import assert from 'node:assert/strict';
-import { mkdirSync } from 'node:fs';
-import { dirname, join } from 'node:path';
-import { fileURLToPath } from 'node:url';
-import { chromium } from 'playwright-core';
+import { join } from 'node:path';
 import { writeFloat32GeoTiff, writeGrey16Png } from './fixture_writers.mjs';
-
-const PAGE_URL = process.env.FOREFIELD_URL ?? 'http://127.0.0.1:8765/';
-const ORIGIN = new URL(PAGE_URL).origin;
-const ARTIFACTS = join(dirname(fileURLToPath(import.meta.url)), 'artifacts');
+import {
+  ARTIFACTS, chooseFiles, colourAtCell, expectLoaded, expectRefused, fileInfoText, loadCount,
+  mapSnapshot, pointAt, session, shownNumber, startPage, stopPage,
+} from './harness.mjs';
 
 // A 12 x 8 tilted plane with one raised cell, 10 m cells, UTM-like coordinates. On the plane
 // the gradient is the same everywhere, so slope and aspect have exact expected values.
@@ -26,133 +23,13 @@ function planeElevation(col, row) {
 }
 const planeTiff = writeFloat32GeoTiff({ ...PLANE, elevation: planeElevation });
 
-/** Parses "1,548.3 m" or "53.7°" as shown on the page. */
-function shownNumber(text) {
-  const match = text.replace(/,/g, '').match(/-?\d+(\.\d+)?/);
-  assert.ok(match, `expected a number in ${JSON.stringify(text)}`);
-  return Number(match[0]);
-}
-
-let browser;
-let page;
-const consoleErrors = [];
-const foreignRequests = [];
-const ownRequests = [];
-
-async function mapSnapshot() {
-  return page.evaluate(() => {
-    const canvas = document.getElementById('map');
-    const { data } = canvas.getContext('2d').getImageData(0, 0, canvas.width, canvas.height);
-    // FNV-1a over every byte: any changed pixel changes the hash.
-    let hash = 0x811c9dc5;
-    const colours = new Set();
-    let sum = 0;
-    let sumSquares = 0;
-    for (let i = 0; i < data.length; i += 4) {
-      for (let k = 0; k < 4; k += 1) hash = Math.imul(hash ^ data[i + k], 0x01000193) >>> 0;
-      colours.add((data[i] << 16) | (data[i + 1] << 8) | data[i + 2]);
-      const luminance = 0.2126 * data[i] + 0.7152 * data[i + 1] + 0.0722 * data[i + 2];
-      sum += luminance;
-      sumSquares += luminance * luminance;
-    }
-    const n = data.length / 4;
-    const mean = sum / n;
-    return {
-      hash,
-      distinctColours: colours.size,
-      luminanceSd: Math.sqrt(Math.max(0, sumSquares / n - mean * mean)),
-    };
-  });
-}
-
-/** The on-screen colour of a cell's centre, read from the visible canvas. */
-async function colourAtCell(col, row) {
-  return page.evaluate(([c, r]) => {
-    const canvas = document.getElementById('map');
-    const rect = canvas.getBoundingClientRect();
-    const point = window.forefield.cellCentreOnPage(c, r);
-    const ratio = canvas.width / rect.width;
-    const x = Math.floor((point.x - rect.left) * ratio);
-    const y = Math.floor((point.y - rect.top) * ratio);
-    return [...canvas.getContext('2d').getImageData(x, y, 1, 1).data.slice(0, 3)];
-  }, [col, row]);
-}
-
-async function fileInfoText() {
-  return page.locator('#file-info').innerText();
-}
-
-async function loadCount() {
-  return Number(await page.locator('body').getAttribute('data-loads') ?? 0);
-}
-
-/** Puts the pointer over a cell and returns the readout panel as shown. */
-async function pointAt(col, row) {
-  const point = await page.evaluate(([c, r]) => window.forefield.cellCentreOnPage(c, r), [col, row]);
-  await page.mouse.move(point.x, point.y);
-  await page.locator('#ro-cell').filter({ hasText: `col ${col}, row ${row}` }).waitFor();
-  const read = async (id) => page.locator(`#ro-${id}`).innerText();
-  return {
-    easting: await read('easting'),
-    northing: await read('northing'),
-    elevation: await read('elevation'),
-    slope: await read('slope'),
-    aspect: await read('aspect'),
-  };
-}
-
-async function chooseFiles(files) {
-  await page.setInputFiles('#terrain-input', files);
-}
-
-/** Waits for a load that must succeed. */
-async function expectLoaded(previousLoads) {
-  await page.waitForFunction((n) => Number(document.body.dataset.loads ?? 0) > n, previousLoads);
-  assert.equal(await page.locator('#error-area').isVisible(), false);
-}
-
-/** Waits for the error area to name `fileName`, and returns its text. */
-async function expectRefused(fileName) {
-  const alert = page.getByRole('alert');
-  await alert.filter({ hasText: fileName }).waitFor();
-  return alert.innerText();
-}
-
-before(async () => {
-  mkdirSync(ARTIFACTS, { recursive: true });
-  browser = await chromium.launch({
-    executablePath: '/usr/bin/chromium',
-    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
-      '--disable-component-update', '--no-first-run'],
-  });
-  const context = await browser.newContext({ viewport: { width: 1280, height: 800 } });
-  // Every request is seen here; anything for another origin is recorded and refused.
-  await context.route('**/*', (route) => {
-    const url = route.request().url();
-    if (new URL(url).origin === ORIGIN) {
-      ownRequests.push(url);
-      return route.continue();
-    }
-    foreignRequests.push(url);
-    return route.abort();
-  });
-  page = await context.newPage();
-  page.on('console', (message) => {
-    if (message.type() === 'error') consoleErrors.push(message.text());
-  });
-  page.on('pageerror', (error) => consoleErrors.push(`page error: ${error.message}`));
-  await page.goto(PAGE_URL);
-  await page.waitForFunction(() => document.body.dataset.state === 'ready', null, { timeout: 30000 });
-});
-
-after(async () => {
-  await browser?.close();
-});
+before(startPage);
+after(stopPage);
 
 describe('the Forefield page', () => {
   test('shows the sample valley as a map with legend and file info', async () => {
     assert.equal(await loadCount(), 1, 'the sample should have loaded once');
-    const info = await page.evaluate(() => window.forefield.info());
+    const info = await session.page.evaluate(() => window.forefield.info());
     assert.equal(info.file_name, 'valley_dem.tif');
     assert.ok(info.max_elevation_m > info.min_elevation_m);
 
@@ -161,7 +38,7 @@ describe('the Forefield page', () => {
     assert.ok(snapshot.luminanceSd > 10, `map brightness barely varies (sd ${snapshot.luminanceSd})`);
 
     // Colours follow the terrain: the highest and lowest of a coarse sample of cells differ.
-    const { lowest, highest } = await page.evaluate(({ n_cols: nCols, n_rows: nRows }) => {
+    const { lowest, highest } = await session.page.evaluate(({ n_cols: nCols, n_rows: nRows }) => {
       let low = null;
       let high = null;
       for (let row = 2; row < nRows - 2; row += Math.ceil(nRows / 20)) {
@@ -180,15 +57,15 @@ describe('the Forefield page', () => {
     const difference = lowColour.reduce((sum, value, i) => sum + Math.abs(value - highColour[i]), 0);
     assert.ok(difference > 60, `low ${lowColour} and high ${highColour} cells look alike`);
 
-    const legendText = await page.locator('#legend').innerText();
+    const legendText = await session.page.locator('#legend').innerText();
     assert.match(legendText, /Elevation \(m\)/);
-    const legend = await page.evaluate(() => window.forefield.legend());
+    const legend = await session.page.evaluate(() => window.forefield.legend());
     assert.ok(legend.stops.length >= 2);
     assert.match(await fileInfoText(), /valley_dem\.tif/);
 
     const readout = await pointAt(lowest.col, lowest.row);
     assert.equal(shownNumber(readout.elevation), Number(lowest.elevation_m.toFixed(1)));
-    await page.screenshot({ path: join(ARTIFACTS, 'sample-valley.png') });
+    await session.page.screenshot({ path: join(ARTIFACTS, 'sample-valley.png') });
   });
 
   test('reads back the values of a hand-written GeoTIFF', async () => {
@@ -217,7 +94,7 @@ describe('the Forefield page', () => {
     assert.ok(Math.abs(shownNumber(bump.elevation) - bumpElevation) <= 0.05, bump.elevation);
     assert.equal(shownNumber(bump.easting), PLANE.westM + (BUMP.col + 0.5) * PLANE.cellSizeM);
     assert.equal(shownNumber(bump.northing), PLANE.northM - (BUMP.row + 0.5) * PLANE.cellSizeM);
-    const engineBump = await page.evaluate(([c, r]) => window.forefield.readoutAt(c, r), [BUMP.col, BUMP.row]);
+    const engineBump = await session.page.evaluate(([c, r]) => window.forefield.readoutAt(c, r), [BUMP.col, BUMP.row]);
     assert.ok(Math.abs(engineBump.elevation_m - bumpElevation) < 1e-3);
 
     // A cell whose whole 3 x 3 neighbourhood lies on the plane: the gradient is exact.
@@ -230,7 +107,7 @@ describe('the Forefield page', () => {
     const aspectDeg = ((Math.atan2(-eastGradient, -northGradient) * 180) / Math.PI + 360) % 360;
     assert.ok(Math.abs(shownNumber(flat.slope) - slopeDeg) <= 0.05, `${flat.slope} vs ${slopeDeg}`);
     assert.ok(Math.abs(shownNumber(flat.aspect) - aspectDeg) <= 0.5, `${flat.aspect} vs ${aspectDeg}`);
-    await page.screenshot({ path: join(ARTIFACTS, 'tilted-plane.png') });
+    await session.page.screenshot({ path: join(ARTIFACTS, 'tilted-plane.png') });
   });
 
   test('loads a PNG height map dropped on the map together with its sidecar', async () => {
@@ -244,14 +121,14 @@ describe('the Forefield page', () => {
       { name: 'ridge.png', type: 'image/png', bytes: [...png] },
       { name: 'ridge.json', type: 'application/json', bytes: [...Buffer.from(JSON.stringify(sidecar))] },
     ];
-    const dataTransfer = await page.evaluateHandle((list) => {
+    const dataTransfer = await session.page.evaluateHandle((list) => {
       const transfer = new DataTransfer();
       for (const file of list) {
         transfer.items.add(new File([new Uint8Array(file.bytes)], file.name, { type: file.type }));
       }
       return transfer;
     }, files);
-    await page.dispatchEvent('#map-frame', 'drop', { dataTransfer });
+    await session.page.dispatchEvent('#map-frame', 'drop', { dataTransfer });
     await expectLoaded(loads);
     assert.notEqual((await mapSnapshot()).hash, before.hash);
     const info = await fileInfoText();
@@ -274,7 +151,7 @@ describe('the Forefield page', () => {
     const loads = await loadCount();
     await chooseFiles({ name: 'holed.tif', mimeType: 'image/tiff', buffer: tiff });
     await expectLoaded(loads);
-    assert.equal(await page.locator('#fi-nodata').innerText(), '1 cell');
+    assert.equal(await session.page.locator('#fi-nodata').innerText(), '1 cell');
     assert.equal((await pointAt(hole.col, hole.row)).elevation, 'no data');
     assert.equal(shownNumber((await pointAt(4, 3)).elevation), 2007);
   });
@@ -302,7 +179,7 @@ describe('the Forefield page', () => {
       assert.ok(message.length > bad.name.length + 10, `message too thin: ${message}`);
       assert.equal((await mapSnapshot()).hash, kept.snapshot.hash, `${bad.name} changed the map`);
       assert.equal(await fileInfoText(), kept.info, `${bad.name} changed the file info`);
-      await page.screenshot({ path: join(ARTIFACTS, `refused-${bad.name.replace(/\W/g, '_')}.png`) });
+      await session.page.screenshot({ path: join(ARTIFACTS, `refused-${bad.name.replace(/\W/g, '_')}.png`) });
     }
     // The kept terrain still answers for its cells.
     const readout = await pointAt(BUMP.col, BUMP.row);
@@ -311,25 +188,25 @@ describe('the Forefield page', () => {
 
   test('pans and zooms with buttons and keys without changing what a cell reads', async () => {
     const before = await mapSnapshot();
-    await page.getByRole('button', { name: 'Zoom in' }).click();
-    await page.getByRole('button', { name: 'Zoom in' }).click();
+    await session.page.getByRole('button', { name: 'Zoom in' }).click();
+    await session.page.getByRole('button', { name: 'Zoom in' }).click();
     const zoomed = await mapSnapshot();
     assert.notEqual(zoomed.hash, before.hash);
-    await page.locator('#map').focus();
-    await page.keyboard.press('ArrowLeft');
+    await session.page.locator('#map').focus();
+    await session.page.keyboard.press('ArrowLeft');
     assert.notEqual((await mapSnapshot()).hash, zoomed.hash);
     const readout = await pointAt(4, 3);
     assert.ok(Math.abs(shownNumber(readout.elevation) - planeElevation(4, 3)) <= 0.05);
-    await page.keyboard.press('0');
+    await session.page.keyboard.press('0');
     // Moving the pointer hands the readout back from the keyboard cross, which then goes.
     await pointAt(4, 3);
     assert.equal((await mapSnapshot()).hash, before.hash, '0 should fit the grid as at load');
   });
 
   test('asks nothing of any other origin and logs no errors', async () => {
-    assert.ok(ownRequests.some((url) => url.endsWith('.wasm')), 'the engine came from the page origin');
-    assert.ok(ownRequests.some((url) => url.endsWith('valley_dem.tif')), 'so did the sample');
-    assert.deepEqual(foreignRequests, []);
-    assert.deepEqual(consoleErrors, []);
+    assert.ok(session.ownRequests.some((url) => url.endsWith('.wasm')), 'the engine came from the page origin');
+    assert.ok(session.ownRequests.some((url) => url.endsWith('valley_dem.tif')), 'so did the sample');
+    assert.deepEqual(session.foreignRequests, []);
+    assert.deepEqual(session.consoleErrors, []);
   });
 });
