@@ -7,3 +7,4 @@ mod ice_mass_balance;
 mod ice_outline;
 mod ice_response;
 mod terrain_horn;
+mod veg_kernels;

@@ -5,6 +5,7 @@
 //! (`forefield-wasm`) and the command line (`forefield-cli`) are thin front ends over it.
 
 pub mod climate;
+pub mod dispersal;
 pub mod exposure;
 pub mod geotiff;
 pub mod grid;
@@ -13,6 +14,7 @@ pub mod ice_flow;
 pub mod ice_outline;
 pub mod load_error;
 pub mod mass_balance;
+pub mod pft;
 pub mod render;
 pub mod sample;
 pub mod scenario;
