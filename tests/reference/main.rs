@@ -8,3 +8,4 @@ mod ice_outline;
 mod ice_response;
 mod terrain_horn;
 mod veg_kernels;
+mod veg_spread;

@@ -636,8 +636,11 @@ fn interpolate_add(
     f_rows: usize,
     factor: usize,
 ) {
-    let per_cell = 1.0 / (factor * factor) as f32;
-    let position = |i: usize, n: usize| -> (usize, usize, f32) {
+    // An axis of one cell (a strip) is not aggregated, so it spreads over one cell.
+    let along = |c: usize, f: usize| if c == f { 1 } else { factor };
+    let (factor_x, factor_y) = (along(c_cols, f_cols), along(c_rows, f_rows));
+    let per_cell = 1.0 / (factor_x * factor_y) as f32;
+    let position = |i: usize, n: usize, factor: usize| -> (usize, usize, f32) {
         let x = (i as f32 + 0.5) / factor as f32 - 0.5;
         if x <= 0.0 {
             return (0, 0, 0.0);
@@ -649,12 +652,12 @@ fn interpolate_add(
         (lo, lo + 1, x - lo as f32)
     };
     for row in 0..f_rows {
-        let (r0, r1, wy) = position(row, c_rows);
+        let (r0, r1, wy) = position(row, c_rows, factor_y);
         let top = &coarse[r0 * c_cols..(r0 + 1) * c_cols];
         let bottom = &coarse[r1 * c_cols..(r1 + 1) * c_cols];
         let out = &mut fine[row * f_cols..(row + 1) * f_cols];
         for (col, o) in out.iter_mut().enumerate() {
-            let (c0, c1, wx) = position(col, c_cols);
+            let (c0, c1, wx) = position(col, c_cols, factor_x);
             let upper = top[c0] + wx * (top[c1] - top[c0]);
             let lower = bottom[c0] + wx * (bottom[c1] - bottom[c0]);
             *o += per_cell * (upper + wy * (lower - upper));
