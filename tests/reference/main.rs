@@ -7,5 +7,6 @@ mod ice_mass_balance;
 mod ice_outline;
 mod ice_response;
 mod terrain_horn;
+mod veg_chronosequence;
 mod veg_kernels;
 mod veg_spread;

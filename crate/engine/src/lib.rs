@@ -5,7 +5,10 @@
 //! (`forefield-wasm`) and the command line (`forefield-cli`) are thin front ends over it.
 
 pub mod climate;
+pub mod coupled;
 pub mod dispersal;
+pub mod disturbance;
+pub mod establishment;
 pub mod exposure;
 pub mod geotiff;
 pub mod grid;
@@ -19,7 +22,10 @@ pub mod render;
 pub mod sample;
 pub mod scenario;
 pub mod simulation;
+pub mod soil;
+pub mod succession;
 pub mod terrain;
+pub mod vegetation;
 
 pub use grid::{Grid, GridGeometry, MAX_CELLS};
 pub use load_error::{LoadError, LoadProblem};

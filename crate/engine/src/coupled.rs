@@ -1,0 +1,154 @@
+//! The coupled yearly run: the ice simulation (`simulation`) and the colonisation model
+//! (`vegetation`) advanced together, the plants seeing each year's ice, exposure years and
+//! temperature anomaly.
+
+use thiserror::Error;
+
+use crate::grid::Grid;
+use crate::pft::VegetationError;
+use crate::scenario::Scenario;
+use crate::simulation::{IceSimulation, SimulationError, YearSummary};
+use crate::terrain::{derivatives, Sun};
+use crate::vegetation::{VegetationModel, VegetationParams, VegetationYearSummary, N_STAGES};
+
+/// A coupled run could not be built.
+#[derive(Debug, Clone, PartialEq, Error)]
+pub enum CoupledError {
+    #[error(transparent)]
+    Ice(#[from] SimulationError),
+    #[error("vegetation: {0}")]
+    Vegetation(#[from] VegetationError),
+    #[error("initial vegetation grid does not line up with the bed grid")]
+    Misaligned,
+}
+
+/// One row of the coupled yearly summary.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
+pub struct CoupledYearSummary {
+    pub ice: YearSummary,
+    pub vegetation: VegetationYearSummary,
+}
+
+/// Ice and vegetation in one yearly loop.
+#[derive(Clone, Debug)]
+pub struct CoupledSimulation {
+    ice: IceSimulation,
+    vegetation: VegetationModel,
+    start: VegetationYearSummary,
+}
+
+impl CoupledSimulation {
+    /// Validates everything and prepares the run. `initial_vegetation` holds stage codes
+    /// 0-6 ([`crate::sample::vegetation_code`]); without it ice-free suitable ground starts
+    /// at its potential vegetation. Random choices use `scenario.seed`.
+    pub fn new(
+        bed_m: &Grid,
+        ice_thickness_m: &Grid,
+        scenario: &Scenario,
+        vegetation: &VegetationParams,
+        initial_vegetation: Option<&Grid>,
+    ) -> Result<CoupledSimulation, CoupledError> {
+        let ice = IceSimulation::new(bed_m, ice_thickness_m, scenario)?;
+        let geometry = bed_m.geometry;
+        let stages = match initial_vegetation {
+            Some(grid) => {
+                if !grid.geometry.aligns_with(&geometry) {
+                    return Err(CoupledError::Misaligned);
+                }
+                let mut codes = vec![0u8; geometry.n_cells()];
+                for (i, (&v, &missing)) in grid.values.iter().zip(&grid.nodata).enumerate() {
+                    codes[i] = if missing {
+                        crate::sample::vegetation_code::BARE
+                    } else if v >= 0.0 && v < N_STAGES as f32 && v.fract() == 0.0 {
+                        v as u8
+                    } else {
+                        return Err(VegetationError::BadCell {
+                            layer: "initial vegetation",
+                            row: i / geometry.n_cols,
+                            col: i % geometry.n_cols,
+                            value: f64::from(v),
+                            what: "stage code (0 to 6)",
+                        }
+                        .into());
+                    };
+                }
+                Some(codes)
+            }
+            None => None,
+        };
+        let slope = derivatives(bed_m, Sun::default()).slope_deg;
+        let anomaly = ice.summary()[0].temperature_anomaly_c;
+        let model = VegetationModel::new(
+            vegetation,
+            &geometry,
+            &bed_m.values,
+            &slope,
+            ice.ice_thickness_m(),
+            stages.as_deref(),
+            anomaly,
+            scenario.seed,
+        )?;
+        let start = model.summarise(ice.start_year());
+        Ok(CoupledSimulation {
+            ice,
+            vegetation: model,
+            start,
+        })
+    }
+
+    /// Simulates the next year; `None` once the scenario's years are done.
+    pub fn step_year(&mut self) -> Option<CoupledYearSummary> {
+        let ice = self.ice.step_year()?;
+        let vegetation = self.vegetation.step_year(
+            ice.year,
+            self.ice.ice_thickness_m(),
+            self.ice.year_exposed(),
+            ice.temperature_anomaly_c,
+        );
+        Some(CoupledYearSummary { ice, vegetation })
+    }
+
+    /// The vegetation summary of the start state.
+    pub fn start_summary(&self) -> CoupledYearSummary {
+        CoupledYearSummary {
+            ice: self.ice.summary()[0],
+            vegetation: self.start,
+        }
+    }
+
+    pub fn ice(&self) -> &IceSimulation {
+        &self.ice
+    }
+
+    pub fn vegetation(&self) -> &VegetationModel {
+        &self.vegetation
+    }
+
+    /// Mutable vegetation, to schedule disturbances.
+    pub fn vegetation_mut(&mut self) -> &mut VegetationModel {
+        &mut self.vegetation
+    }
+
+    /// Succession stage per cell at the end of the current year.
+    pub fn stage(&self) -> &[u8] {
+        self.vegetation.stage()
+    }
+
+    /// Cover of one plant type per cell.
+    pub fn cover_of(&self, type_idx: usize) -> &[f32] {
+        self.vegetation.cover_of(type_idx)
+    }
+
+    /// Soil development index per cell.
+    pub fn soil(&self) -> &[f32] {
+        self.vegetation.soil()
+    }
+
+    pub fn year(&self) -> i32 {
+        self.ice.year()
+    }
+
+    pub fn is_finished(&self) -> bool {
+        self.ice.is_finished()
+    }
+}
