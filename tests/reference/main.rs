@@ -9,4 +9,5 @@ mod ice_response;
 mod terrain_horn;
 mod veg_chronosequence;
 mod veg_kernels;
+mod veg_model;
 mod veg_spread;
