@@ -15,6 +15,7 @@ pub mod grid;
 pub mod heightmap_png;
 pub mod ice_flow;
 pub mod ice_outline;
+pub mod layers;
 pub mod load_error;
 pub mod mass_balance;
 pub mod pft;
@@ -25,6 +26,7 @@ pub mod simulation;
 pub mod soil;
 pub mod succession;
 pub mod terrain;
+pub mod timeline;
 pub mod vegetation;
 
 pub use grid::{Grid, GridGeometry, MAX_CELLS};

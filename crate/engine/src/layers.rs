@@ -1,0 +1,327 @@
+//! Map layers of a recorded run: any layer and year of a [`Timeline`] drawn into an RGBA buffer
+//! over Horn hillshade, with legends in the layer's units. Ramps and palette are our own.
+//!
+//! Continuous ramps change CIE L* monotonically from end to end, so order reads in greyscale
+//! print and for the common colour-vision deficiencies; hue only adds character. Ice runs from
+//! pale (thin) to deep blue (thick); exposure year from dark plum (exposed early, the oldest
+//! ground) to pale straw (exposed late). Ground a layer does not describe is drawn as grey
+//! shaded relief so the layer stands out. The stage palette separates neighbouring stages by
+//! lightness as well as hue.
+
+use serde::Serialize;
+
+use crate::render::{ColorRamp, LegendStop};
+use crate::timeline::{Timeline, COVERED, NEVER_COVERED};
+
+/// Ice thickness: pale ice-blue for thin ice to deep blue for thick ice (L* falls).
+pub const ICE_RAMP: ColorRamp = ColorRamp {
+    stops: &[
+        (0.0, [226, 242, 248]),
+        (0.25, [163, 207, 230]),
+        (0.5, [98, 162, 208]),
+        (0.75, [50, 106, 172]),
+        (1.0, [27, 48, 108]),
+    ],
+};
+
+/// Exposure year: dark plum (early) through rose and amber to pale straw (late); L* rises.
+pub const EXPOSURE_RAMP: ColorRamp = ColorRamp {
+    stops: &[
+        (0.0, [54, 30, 86]),
+        (0.25, [118, 46, 114]),
+        (0.5, [188, 74, 96]),
+        (0.75, [232, 138, 72]),
+        (1.0, [248, 228, 146]),
+    ],
+};
+
+/// Flat colour of ice where a layer describes the ground, not the ice.
+pub const ICE_FLAT: [u8; 3] = [216, 233, 243];
+
+/// Succession stages by code (0 ice ... 6 mature forest): label and colour. Lightness steps
+/// down from pioneer to mature forest, so the order of succession reads in greyscale.
+pub const STAGE_PALETTE: [(&str, [u8; 3]); 7] = [
+    ("ice", ICE_FLAT),
+    ("bare ground", [176, 168, 158]),
+    ("pioneer", [236, 214, 128]),
+    ("meadow", [170, 204, 104]),
+    ("shrubland", [196, 132, 70]),
+    ("young forest", [62, 146, 118]),
+    ("mature forest", [26, 76, 58]),
+];
+
+/// Share of the colour kept in full shadow (as for the terrain map; common practice, no
+/// source).
+const SHADE_FLOOR: f32 = 0.45;
+
+/// Layers of a recorded run.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum LayerKind {
+    /// Ice thickness, m.
+    IceThickness,
+    /// Year the ground became ice-free.
+    ExposureYear,
+}
+
+impl LayerKind {
+    /// Parses the name the page uses.
+    pub fn from_name(name: &str) -> Option<LayerKind> {
+        match name {
+            "ice_thickness" => Some(LayerKind::IceThickness),
+            "exposure_year" => Some(LayerKind::ExposureYear),
+            _ => None,
+        }
+    }
+}
+
+/// A named colour of a legend (categories, or ground a ramp does not cover).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct LegendClass {
+    pub label: String,
+    pub rgb: [u8; 3],
+}
+
+/// Legend of a layer: a ramp (when `stops` is not empty) and named classes.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct LayerLegend {
+    pub title: String,
+    pub unit: String,
+    pub min: f64,
+    pub max: f64,
+    pub stops: Vec<LegendStop>,
+    pub classes: Vec<LegendClass>,
+    pub note: String,
+}
+
+/// Draws timeline layers; owns the per-cell shading and scratch so a draw allocates nothing
+/// after the first.
+#[derive(Clone, Debug)]
+pub struct LayerRenderer {
+    /// Hillshade brightness factor per cell, 0 marks nodata.
+    light: Vec<f32>,
+    thickness_m: Vec<f32>,
+    exposed: Vec<i32>,
+}
+
+impl LayerRenderer {
+    /// `hillshade` in [0, 1] (NaN where unknown); `nodata` cells stay transparent.
+    pub fn new(hillshade: &[f32], nodata: &[bool]) -> LayerRenderer {
+        let light = hillshade
+            .iter()
+            .zip(nodata)
+            .map(|(&s, &missing)| {
+                if missing {
+                    0.0
+                } else {
+                    let s = if s.is_finite() {
+                        s.clamp(0.0, 1.0)
+                    } else {
+                        1.0
+                    };
+                    SHADE_FLOOR + (1.0 - SHADE_FLOOR) * s
+                }
+            })
+            .collect();
+        LayerRenderer {
+            light,
+            thickness_m: Vec::new(),
+            exposed: Vec::new(),
+        }
+    }
+
+    /// Fills `rgba` (4 bytes per cell) with `kind` at the end of `year`.
+    pub fn render(&mut self, timeline: &Timeline, kind: LayerKind, year: i32, rgba: &mut Vec<u8>) {
+        let n = timeline.n_cells().min(self.light.len());
+        rgba.resize(4 * self.light.len(), 0);
+        match kind {
+            LayerKind::IceThickness => {
+                timeline.fill_ice_thickness(year, &mut self.thickness_m);
+                let max = ice_scale_m(timeline);
+                let lut = lut(ICE_RAMP);
+                let to_index = 255.0 / max;
+                for idx in 0..n {
+                    let h = self.thickness_m[idx];
+                    let colour = if h > 0.0 {
+                        lut[((h * to_index) as usize).min(255)]
+                    } else {
+                        GROUND_GREY
+                    };
+                    put(rgba, idx, colour, self.light[idx]);
+                }
+            }
+            LayerKind::ExposureYear => {
+                timeline.fill_exposure(year, &mut self.exposed);
+                let lut = lut(EXPOSURE_RAMP);
+                let first = timeline.start_year();
+                let span = (timeline.last_year() - first).max(1) as f32;
+                for idx in 0..n {
+                    let colour = match self.exposed[idx] {
+                        COVERED => ICE_FLAT,
+                        NEVER_COVERED => GROUND_GREY,
+                        y => lut[(((y - first) as f32 / span * 255.0) as usize).min(255)],
+                    };
+                    put(rgba, idx, colour, self.light[idx]);
+                }
+            }
+        }
+    }
+}
+
+/// Grey of ground a layer does not describe, before shading.
+const GROUND_GREY: [u8; 3] = [196, 194, 190];
+
+/// Upper end of the ice ramp: the run's largest stored thickness, at least 10 m so a thin
+/// glacier is not drawn as if it were deep.
+fn ice_scale_m(timeline: &Timeline) -> f32 {
+    timeline.max_thickness_m().max(10.0)
+}
+
+fn lut(ramp: ColorRamp) -> [[u8; 3]; 256] {
+    let mut table = [[0; 3]; 256];
+    for (i, entry) in table.iter_mut().enumerate() {
+        *entry = ramp.at(i as f32 / 255.0);
+    }
+    table
+}
+
+#[inline]
+fn put(rgba: &mut [u8], idx: usize, colour: [u8; 3], light: f32) {
+    let pixel = &mut rgba[4 * idx..4 * idx + 4];
+    if light == 0.0 {
+        pixel.copy_from_slice(&[0, 0, 0, 0]);
+        return;
+    }
+    pixel[0] = (f32::from(colour[0]) * light) as u8;
+    pixel[1] = (f32::from(colour[1]) * light) as u8;
+    pixel[2] = (f32::from(colour[2]) * light) as u8;
+    pixel[3] = 255;
+}
+
+fn ramp_stops(ramp: ColorRamp, min: f64, max: f64) -> Vec<LegendStop> {
+    ramp.stops
+        .iter()
+        .map(|&(t, rgb)| LegendStop {
+            value: min + f64::from(t) * (max - min),
+            rgb,
+        })
+        .collect()
+}
+
+/// The legend that matches [`LayerRenderer::render`] for `kind`.
+pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
+    let class = |label: &str, rgb: [u8; 3]| LegendClass {
+        label: label.to_string(),
+        rgb,
+    };
+    match kind {
+        LayerKind::IceThickness => {
+            let max = f64::from(ice_scale_m(timeline));
+            LayerLegend {
+                title: "Ice thickness".into(),
+                unit: "m".into(),
+                min: 0.0,
+                max,
+                stops: ramp_stops(ICE_RAMP, 0.0, max),
+                classes: vec![class("ice-free ground", GROUND_GREY)],
+                note: "Ice at least 1 m thick. Over shaded relief of the bed.".into(),
+            }
+        }
+        LayerKind::ExposureYear => {
+            let (first, last) = (
+                timeline.start_year(),
+                timeline.last_year().max(timeline.start_year() + 1),
+            );
+            LayerLegend {
+                title: "Year exposed".into(),
+                unit: "year".into(),
+                min: f64::from(first),
+                max: f64::from(last),
+                stops: ramp_stops(EXPOSURE_RAMP, f64::from(first), f64::from(last)),
+                classes: vec![
+                    class("under ice", ICE_FLAT),
+                    class("ice-free at the start", GROUND_GREY),
+                ],
+                note: "Year the ground became ice-free (the latest, if ice came back).".into(),
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::timeline::{TimelineRecorder, DEFAULT_FRAME_BUDGET_BYTES};
+
+    /// CIE L* of an sRGB colour (IEC 61966-2-1 transfer, D65 white; CIE 15:2004).
+    fn lightness(rgb: [u8; 3]) -> f64 {
+        let lin = |c: u8| {
+            let c = f64::from(c) / 255.0;
+            if c <= 0.04045 {
+                c / 12.92
+            } else {
+                ((c + 0.055) / 1.055).powf(2.4)
+            }
+        };
+        let y = 0.2126 * lin(rgb[0]) + 0.7152 * lin(rgb[1]) + 0.0722 * lin(rgb[2]);
+        if y > 216.0 / 24389.0 {
+            116.0 * y.cbrt() - 16.0
+        } else {
+            y * 24389.0 / 27.0
+        }
+    }
+
+    fn check_monotonic(ramp: ColorRamp, rising: bool) {
+        let mut last = if rising { -1.0 } else { 101.0 };
+        for step in 0..=100 {
+            let l = lightness(ramp.at(step as f32 / 100.0));
+            assert!(
+                if rising { l > last } else { l < last },
+                "L* not monotonic at step {step}: {l} after {last}"
+            );
+            last = l;
+        }
+    }
+
+    #[test]
+    fn ramps_change_lightness_monotonically_and_widely() {
+        check_monotonic(ICE_RAMP, false);
+        check_monotonic(EXPOSURE_RAMP, true);
+        for ramp in [ICE_RAMP, EXPOSURE_RAMP] {
+            let span = (lightness(ramp.at(0.0)) - lightness(ramp.at(1.0))).abs();
+            assert!(span > 60.0, "L* span only {span}");
+        }
+    }
+
+    #[test]
+    fn stage_palette_separates_succession_by_lightness() {
+        // Pioneer to mature forest: each stage darker than the one before, by at least 5 L*.
+        for pair in STAGE_PALETTE[2..].windows(2) {
+            let (a, b) = (lightness(pair[0].1), lightness(pair[1].1));
+            assert!(a - b > 5.0, "{} ({a}) vs {} ({b})", pair[0].0, pair[1].0);
+        }
+    }
+
+    #[test]
+    fn renders_ice_and_exposure_per_year() {
+        // 3 x 1 grid: thick ice, ice that melts out in the first year, ground.
+        let start = [80.0_f32, 5.0, 0.0];
+        let after = [70.0_f32, 0.0, 0.0];
+        let mut recorder = TimelineRecorder::new(3, 2000, 1, &start, DEFAULT_FRAME_BUDGET_BYTES);
+        recorder.record_year(2001, &after);
+        let timeline = recorder.finish(&after);
+        let mut renderer = LayerRenderer::new(&[1.0; 3], &[false; 3]);
+        let mut rgba = Vec::new();
+        renderer.render(&timeline, LayerKind::IceThickness, 2000, &mut rgba);
+        assert_eq!(&rgba[..3], &ICE_RAMP.at(1.0)[..]);
+        assert_ne!(&rgba[4..7], &GROUND_GREY[..]);
+        assert_eq!(&rgba[8..11], &GROUND_GREY[..]);
+        renderer.render(&timeline, LayerKind::IceThickness, 2001, &mut rgba);
+        assert_eq!(&rgba[4..7], &GROUND_GREY[..]);
+        renderer.render(&timeline, LayerKind::ExposureYear, 2001, &mut rgba);
+        assert_eq!(&rgba[..3], &ICE_FLAT[..]);
+        assert_eq!(&rgba[4..7], &EXPOSURE_RAMP.at(1.0)[..]);
+        assert_eq!(&rgba[8..11], &GROUND_GREY[..]);
+        let legend = legend(&timeline, LayerKind::ExposureYear);
+        assert_eq!((legend.min, legend.max), (2000.0, 2001.0));
+    }
+}

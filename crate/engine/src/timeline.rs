@@ -1,0 +1,668 @@
+//! Timeline store: every simulated year viewable without a re-run, from exact cover events per
+//! cell plus ice thickness quantised to 16 bits at keyframe years (own design).
+//!
+//! What is exact and what is interpolated:
+//!
+//! - **Ice cover** (thickness at least [`ICE_COVER_THRESHOLD_M`]) is exact for every year: each
+//!   cell stores whether it started under ice and the years its cover toggled (became ice-free,
+//!   was covered again). Nearly every cell toggles at most once, so the first toggle is kept in
+//!   a `u16` per cell and later toggles in a short side list.
+//! - **Exposure year** as of any year Y follows from the same toggles: the latest toggle to
+//!   ice-free at or before Y.
+//! - **Ice thickness** is kept at keyframe years (the start, every `keyframe_interval` years,
+//!   and the last year), in steps of [`THICKNESS_STEP_M`], inside each frame's bounding box of
+//!   ice. Between keyframes it is interpolated linearly in time, and the exact cover decides
+//!   whether a cell shows ice at all. The interval is chosen at the start so that the frames
+//!   fit a memory budget; on the 400 x 400 sample it is one year (every year stored).
+//!
+//! Memory: 3 bytes per cell for cover events plus 2 bytes per cell inside the ice box per
+//! keyframe. [`Timeline::memory_bytes`] gives the figure for a run.
+//!
+//! The whole store travels between threads as one byte string ([`Timeline::to_bytes`],
+//! [`Timeline::from_bytes`]): a worker records, the page renders.
+
+use thiserror::Error;
+
+use crate::exposure::ICE_COVER_THRESHOLD_M;
+
+/// Quantisation step of stored ice thickness, m: 0.05 m keeps 0 to 3276 m in a `u16`, beyond
+/// the 2000 m the ice model accepts.
+pub const THICKNESS_STEP_M: f32 = 0.05;
+
+/// Default memory budget for thickness keyframes, bytes (32 MiB: small beside a browser tab's
+/// typical limit of several GiB, and copied once between worker and page).
+pub const DEFAULT_FRAME_BUDGET_BYTES: usize = 32 << 20;
+
+const MAGIC: &[u8; 8] = b"FFTLINE1";
+
+/// Per-cell flag: the cell was ice-covered at the start.
+const FLAG_COVERED_AT_START: u8 = 1;
+/// Per-cell flag: the cell has toggles beyond the first, in `later_toggles`.
+const FLAG_MORE_TOGGLES: u8 = 2;
+/// `first_toggle` value of a cell whose cover never changed.
+const NO_TOGGLE: u16 = u16::MAX;
+
+/// A timeline byte string that cannot be read.
+#[derive(Debug, Clone, PartialEq, Error)]
+pub enum TimelineError {
+    #[error("timeline data is not in this engine's format")]
+    BadMagic,
+    #[error("timeline data ends early (needed {needed} bytes at offset {offset})")]
+    Truncated { offset: usize, needed: usize },
+    #[error("timeline data is inconsistent: {0}")]
+    Inconsistent(&'static str),
+}
+
+/// Ice thickness of one keyframe year inside a box of cells; thickness is zero outside it.
+#[derive(Clone, Debug, PartialEq)]
+struct Frame {
+    year: i32,
+    col0: u32,
+    row0: u32,
+    width: u32,
+    height: u32,
+    /// Thickness in units of [`THICKNESS_STEP_M`], row-major over the box.
+    thickness_q: Vec<u16>,
+}
+
+impl Frame {
+    fn from_thickness(year: i32, n_cols: usize, thickness_m: &[f32]) -> Frame {
+        let n_rows = thickness_m.len() / n_cols.max(1);
+        let (mut c0, mut r0, mut c1, mut r1) = (usize::MAX, usize::MAX, 0, 0);
+        for (idx, &h) in thickness_m.iter().enumerate() {
+            if h > 0.0 {
+                let (row, col) = (idx / n_cols, idx % n_cols);
+                c0 = c0.min(col);
+                c1 = c1.max(col);
+                r0 = r0.min(row);
+                r1 = r1.max(row);
+            }
+        }
+        if c0 == usize::MAX || n_rows == 0 {
+            return Frame {
+                year,
+                col0: 0,
+                row0: 0,
+                width: 0,
+                height: 0,
+                thickness_q: Vec::new(),
+            };
+        }
+        let (width, height) = (c1 - c0 + 1, r1 - r0 + 1);
+        let mut thickness_q = Vec::with_capacity(width * height);
+        for row in r0..=r1 {
+            let line = &thickness_m[row * n_cols + c0..=row * n_cols + c1];
+            thickness_q.extend(line.iter().map(|&h| quantise(h)));
+        }
+        Frame {
+            year,
+            col0: c0 as u32,
+            row0: r0 as u32,
+            width: width as u32,
+            height: height as u32,
+            thickness_q,
+        }
+    }
+
+    fn thickness_q(&self, col: usize, row: usize) -> u16 {
+        let (c, r) = (
+            col.wrapping_sub(self.col0 as usize),
+            row.wrapping_sub(self.row0 as usize),
+        );
+        if c < self.width as usize && r < self.height as usize {
+            self.thickness_q[r * self.width as usize + c]
+        } else {
+            0
+        }
+    }
+}
+
+fn quantise(h: f32) -> u16 {
+    if h.is_finite() && h > 0.0 {
+        (h / THICKNESS_STEP_M).round().min(f32::from(u16::MAX)) as u16
+    } else {
+        0
+    }
+}
+
+/// The recorded run: cover events per cell and thickness keyframes.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Timeline {
+    n_cols: usize,
+    n_rows: usize,
+    start_year: i32,
+    /// Last recorded year.
+    last_year: i32,
+    keyframe_interval: u32,
+    frames: Vec<Frame>,
+    flags: Vec<u8>,
+    /// Years since the start of each cell's first cover toggle, or [`NO_TOGGLE`].
+    first_toggle: Vec<u16>,
+    /// Second and later toggles, sorted by cell then year: (cell index, years since start).
+    later_toggles: Vec<(u32, u16)>,
+}
+
+/// Records a run year by year into a [`Timeline`].
+#[derive(Clone, Debug)]
+pub struct TimelineRecorder {
+    timeline: Timeline,
+    end_year: i32,
+    covered_now: Vec<bool>,
+}
+
+impl TimelineRecorder {
+    /// Starts from the thickness at the end of `start_year`; the keyframe interval is the
+    /// smallest that keeps `n_years + 1` frames of this size inside `frame_budget_bytes`.
+    pub fn new(
+        n_cols: usize,
+        start_year: i32,
+        n_years: u32,
+        ice_thickness_m: &[f32],
+        frame_budget_bytes: usize,
+    ) -> TimelineRecorder {
+        let n_cells = ice_thickness_m.len();
+        let n_rows = n_cells / n_cols.max(1);
+        let first = Frame::from_thickness(start_year, n_cols, ice_thickness_m);
+        let frame_bytes = (first.thickness_q.len() * 2).max(1);
+        let frames_in_budget = (frame_budget_bytes / frame_bytes).max(2);
+        let needed = n_years as usize + 1;
+        let keyframe_interval = if needed <= frames_in_budget {
+            1
+        } else {
+            (n_years as usize).div_ceil(frames_in_budget - 1) as u32
+        };
+        let covered_now: Vec<bool> = ice_thickness_m
+            .iter()
+            .map(|&h| h >= ICE_COVER_THRESHOLD_M)
+            .collect();
+        let flags = covered_now
+            .iter()
+            .map(|&c| if c { FLAG_COVERED_AT_START } else { 0 })
+            .collect();
+        TimelineRecorder {
+            timeline: Timeline {
+                n_cols,
+                n_rows,
+                start_year,
+                last_year: start_year,
+                keyframe_interval: keyframe_interval.max(1),
+                frames: vec![first],
+                flags,
+                first_toggle: vec![NO_TOGGLE; n_cells],
+                later_toggles: Vec::new(),
+            },
+            end_year: start_year + n_years as i32,
+            covered_now,
+        }
+    }
+
+    /// Records the thickness at the end of `year` (the year after the last one recorded).
+    pub fn record_year(&mut self, year: i32, ice_thickness_m: &[f32]) {
+        let timeline = &mut self.timeline;
+        let offset = (year - timeline.start_year).clamp(0, i32::from(u16::MAX - 1)) as u16;
+        for (idx, (covered, &h)) in self.covered_now.iter_mut().zip(ice_thickness_m).enumerate() {
+            let now = h >= ICE_COVER_THRESHOLD_M;
+            if now != *covered {
+                *covered = now;
+                if timeline.first_toggle[idx] == NO_TOGGLE {
+                    timeline.first_toggle[idx] = offset;
+                } else {
+                    timeline.flags[idx] |= FLAG_MORE_TOGGLES;
+                    timeline.later_toggles.push((idx as u32, offset));
+                }
+            }
+        }
+        timeline.last_year = year;
+        let since_start = (year - timeline.start_year) as u32;
+        if since_start % timeline.keyframe_interval == 0 || year >= self.end_year {
+            timeline.frames.push(Frame::from_thickness(
+                year,
+                timeline.n_cols,
+                ice_thickness_m,
+            ));
+        }
+    }
+
+    /// The timeline so far. The last recorded year is made a keyframe if it is not one
+    /// (a cancelled or shortened run stays viewable to where it got).
+    pub fn finish(mut self, ice_thickness_m: &[f32]) -> Timeline {
+        let timeline = &mut self.timeline;
+        if timeline.frames.last().map(|f| f.year) != Some(timeline.last_year) {
+            timeline.frames.push(Frame::from_thickness(
+                timeline.last_year,
+                timeline.n_cols,
+                ice_thickness_m,
+            ));
+        }
+        // Pushed in year order per cell, but cells interleave across years.
+        timeline.later_toggles.sort_unstable();
+        self.timeline
+    }
+
+    pub fn keyframe_interval(&self) -> u32 {
+        self.timeline.keyframe_interval
+    }
+}
+
+impl Timeline {
+    pub fn n_cols(&self) -> usize {
+        self.n_cols
+    }
+
+    pub fn n_rows(&self) -> usize {
+        self.n_rows
+    }
+
+    pub fn n_cells(&self) -> usize {
+        self.n_cols * self.n_rows
+    }
+
+    pub fn start_year(&self) -> i32 {
+        self.start_year
+    }
+
+    pub fn last_year(&self) -> i32 {
+        self.last_year
+    }
+
+    pub fn keyframe_interval(&self) -> u32 {
+        self.keyframe_interval
+    }
+
+    /// Years that hold a thickness keyframe.
+    pub fn keyframe_years(&self) -> Vec<i32> {
+        self.frames.iter().map(|f| f.year).collect()
+    }
+
+    /// Bytes held by the store (the figure the page reports).
+    pub fn memory_bytes(&self) -> usize {
+        self.flags.len()
+            + 2 * self.first_toggle.len()
+            + 6 * self.later_toggles.len()
+            + self
+                .frames
+                .iter()
+                .map(|f| 2 * f.thickness_q.len() + 20)
+                .sum::<usize>()
+    }
+
+    /// Largest stored thickness over all keyframes, m.
+    pub fn max_thickness_m(&self) -> f32 {
+        self.frames
+            .iter()
+            .flat_map(|f| f.thickness_q.iter())
+            .copied()
+            .max()
+            .map_or(0.0, |q| f32::from(q) * THICKNESS_STEP_M)
+    }
+
+    fn clamp_year(&self, year: i32) -> i32 {
+        year.clamp(self.start_year, self.last_year)
+    }
+
+    /// Later toggles of one cell (usually none).
+    fn later_toggles_of(&self, idx: usize) -> &[(u32, u16)] {
+        if self.flags[idx] & FLAG_MORE_TOGGLES == 0 {
+            return &[];
+        }
+        let cell = idx as u32;
+        let lo = self.later_toggles.partition_point(|&(c, _)| c < cell);
+        let hi = self.later_toggles.partition_point(|&(c, _)| c <= cell);
+        &self.later_toggles[lo..hi]
+    }
+
+    /// Cover state and the exposure year that holds at the end of `offset` years after the
+    /// start: `(covered, latest year the cell became ice-free, if any)`.
+    #[inline]
+    fn cover_at_offset(&self, idx: usize, offset: u16) -> (bool, Option<i32>) {
+        let mut covered = self.flags[idx] & FLAG_COVERED_AT_START != 0;
+        let first = self.first_toggle[idx];
+        if first == NO_TOGGLE || first > offset {
+            return (covered, None);
+        }
+        covered = !covered;
+        let mut exposed = (!covered).then_some(first);
+        for &(_, toggle) in self.later_toggles_of(idx) {
+            if toggle > offset {
+                break;
+            }
+            covered = !covered;
+            if !covered {
+                exposed = Some(toggle);
+            }
+        }
+        (covered, exposed.map(|o| self.start_year + i32::from(o)))
+    }
+
+    /// Whether the cell is ice-covered at the end of `year`, and the latest year it became
+    /// ice-free at or before then (`None`: not exposed by then, or ice-free from the start).
+    pub fn cover_at(&self, idx: usize, year: i32) -> (bool, Option<i32>) {
+        let offset = (self.clamp_year(year) - self.start_year) as u16;
+        self.cover_at_offset(idx, offset)
+    }
+
+    /// Whether the cell was ice-covered at the start.
+    pub fn covered_at_start(&self, idx: usize) -> bool {
+        self.flags[idx] & FLAG_COVERED_AT_START != 0
+    }
+
+    /// The keyframes around `year` and the weight of the later one.
+    fn bracket(&self, year: i32) -> (&Frame, &Frame, f32) {
+        let year = self.clamp_year(year);
+        let after = self.frames.partition_point(|f| f.year < year);
+        let after = after.min(self.frames.len() - 1);
+        let b = &self.frames[after];
+        if b.year == year || after == 0 {
+            return (b, b, 0.0);
+        }
+        let a = &self.frames[after - 1];
+        let w = (year - a.year) as f32 / (b.year - a.year) as f32;
+        (a, b, w)
+    }
+
+    /// Ice thickness at one cell at the end of `year`, m: zero where the cell is ice-free, at
+    /// least the cover threshold where it is covered.
+    pub fn ice_thickness_at(&self, idx: usize, year: i32) -> f32 {
+        let (covered, _) = self.cover_at(idx, year);
+        if !covered {
+            return 0.0;
+        }
+        let (col, row) = (idx % self.n_cols, idx / self.n_cols);
+        let (a, b, w) = self.bracket(year);
+        let ha = f32::from(a.thickness_q(col, row));
+        let hb = f32::from(b.thickness_q(col, row));
+        ((ha + w * (hb - ha)) * THICKNESS_STEP_M).max(ICE_COVER_THRESHOLD_M)
+    }
+
+    /// Fills `thickness_m` (resized to the grid) with the ice thickness at the end of `year`.
+    /// Works frame box by frame box so a year costs one pass over the grid.
+    pub fn fill_ice_thickness(&self, year: i32, thickness_m: &mut Vec<f32>) {
+        let n = self.n_cells();
+        thickness_m.clear();
+        thickness_m.resize(n, 0.0);
+        let (a, b, w) = self.bracket(year);
+        for frame_weight in [(a, 1.0 - w), (b, w)] {
+            let (frame, weight) = frame_weight;
+            if weight == 0.0 || frame.width == 0 {
+                continue;
+            }
+            let scale = weight * THICKNESS_STEP_M;
+            let width = frame.width as usize;
+            for (r, line) in frame.thickness_q.chunks_exact(width).enumerate() {
+                let start = (frame.row0 as usize + r) * self.n_cols + frame.col0 as usize;
+                for (out, &q) in thickness_m[start..start + width].iter_mut().zip(line) {
+                    *out += f32::from(q) * scale;
+                }
+            }
+        }
+        let offset = (self.clamp_year(year) - self.start_year) as u16;
+        for (idx, h) in thickness_m.iter_mut().enumerate() {
+            let (covered, _) = self.cover_at_offset(idx, offset);
+            *h = if covered {
+                h.max(ICE_COVER_THRESHOLD_M)
+            } else {
+                0.0
+            };
+        }
+    }
+
+    /// Fills `exposed` (resized to the grid) with each cell's state at the end of `year`:
+    /// the exposure year, or [`COVERED`] under ice, or [`NEVER_COVERED`] for ground that was
+    /// ice-free from the start.
+    pub fn fill_exposure(&self, year: i32, exposed: &mut Vec<i32>) {
+        let n = self.n_cells();
+        exposed.clear();
+        exposed.resize(n, NEVER_COVERED);
+        let offset = (self.clamp_year(year) - self.start_year) as u16;
+        for (idx, out) in exposed.iter_mut().enumerate() {
+            *out = match self.cover_at_offset(idx, offset) {
+                (true, _) => COVERED,
+                (false, Some(y)) => y,
+                (false, None) => NEVER_COVERED,
+            };
+        }
+    }
+
+    /// The store as one byte string (little-endian), for handing between threads.
+    pub fn to_bytes(&self) -> Vec<u8> {
+        let mut out = Vec::with_capacity(self.memory_bytes() + 64);
+        out.extend_from_slice(MAGIC);
+        for v in [
+            self.n_cols as u32,
+            self.n_rows as u32,
+            self.start_year as u32,
+            self.last_year as u32,
+            self.keyframe_interval,
+            self.frames.len() as u32,
+            self.later_toggles.len() as u32,
+        ] {
+            out.extend_from_slice(&v.to_le_bytes());
+        }
+        for f in &self.frames {
+            for v in [f.year as u32, f.col0, f.row0, f.width, f.height] {
+                out.extend_from_slice(&v.to_le_bytes());
+            }
+            for q in &f.thickness_q {
+                out.extend_from_slice(&q.to_le_bytes());
+            }
+        }
+        out.extend_from_slice(&self.flags);
+        for t in &self.first_toggle {
+            out.extend_from_slice(&t.to_le_bytes());
+        }
+        for (cell, t) in &self.later_toggles {
+            out.extend_from_slice(&cell.to_le_bytes());
+            out.extend_from_slice(&t.to_le_bytes());
+        }
+        out
+    }
+
+    /// Reads [`Timeline::to_bytes`] output, checking every size against the header.
+    pub fn from_bytes(bytes: &[u8]) -> Result<Timeline, TimelineError> {
+        let mut reader = Reader { bytes, offset: 0 };
+        if reader.take(MAGIC.len())? != MAGIC {
+            return Err(TimelineError::BadMagic);
+        }
+        let n_cols = reader.u32()? as usize;
+        let n_rows = reader.u32()? as usize;
+        let start_year = reader.u32()? as i32;
+        let last_year = reader.u32()? as i32;
+        let keyframe_interval = reader.u32()?;
+        let n_frames = reader.u32()? as usize;
+        let n_later = reader.u32()? as usize;
+        let n_cells = n_cols
+            .checked_mul(n_rows)
+            .filter(|&n| n <= crate::MAX_CELLS)
+            .ok_or(TimelineError::Inconsistent("grid size"))?;
+        if n_frames == 0 || last_year < start_year || keyframe_interval == 0 {
+            return Err(TimelineError::Inconsistent("header"));
+        }
+        let mut frames = Vec::with_capacity(n_frames.min(4096));
+        for _ in 0..n_frames {
+            let year = reader.u32()? as i32;
+            let (col0, row0, width, height) =
+                (reader.u32()?, reader.u32()?, reader.u32()?, reader.u32()?);
+            if col0 as usize + width as usize > n_cols || row0 as usize + height as usize > n_rows {
+                return Err(TimelineError::Inconsistent("frame box outside the grid"));
+            }
+            let raw = reader.take(2 * width as usize * height as usize)?;
+            let thickness_q = raw
+                .chunks_exact(2)
+                .map(|c| u16::from_le_bytes([c[0], c[1]]))
+                .collect();
+            frames.push(Frame {
+                year,
+                col0,
+                row0,
+                width,
+                height,
+                thickness_q,
+            });
+        }
+        if frames.windows(2).any(|w| w[0].year >= w[1].year) {
+            return Err(TimelineError::Inconsistent("keyframe years out of order"));
+        }
+        let flags = reader.take(n_cells)?.to_vec();
+        let first_toggle = reader
+            .take(2 * n_cells)?
+            .chunks_exact(2)
+            .map(|c| u16::from_le_bytes([c[0], c[1]]))
+            .collect();
+        let mut later_toggles = Vec::with_capacity(n_later.min(n_cells));
+        for _ in 0..n_later {
+            let cell = reader.u32()?;
+            let raw = reader.take(2)?;
+            if cell as usize >= n_cells {
+                return Err(TimelineError::Inconsistent("toggle cell outside the grid"));
+            }
+            later_toggles.push((cell, u16::from_le_bytes([raw[0], raw[1]])));
+        }
+        Ok(Timeline {
+            n_cols,
+            n_rows,
+            start_year,
+            last_year,
+            keyframe_interval,
+            frames,
+            flags,
+            first_toggle,
+            later_toggles,
+        })
+    }
+}
+
+/// Exposure marker: under ice in that year.
+pub const COVERED: i32 = i32::MAX;
+/// Exposure marker: ice-free from the start of the run.
+pub const NEVER_COVERED: i32 = i32::MIN;
+
+struct Reader<'a> {
+    bytes: &'a [u8],
+    offset: usize,
+}
+
+impl<'a> Reader<'a> {
+    fn take(&mut self, n: usize) -> Result<&'a [u8], TimelineError> {
+        let end = self
+            .offset
+            .checked_add(n)
+            .filter(|&end| end <= self.bytes.len())
+            .ok_or(TimelineError::Truncated {
+                offset: self.offset,
+                needed: n,
+            })?;
+        let slice = &self.bytes[self.offset..end];
+        self.offset = end;
+        Ok(slice)
+    }
+
+    fn u32(&mut self) -> Result<u32, TimelineError> {
+        let raw = self.take(4)?;
+        Ok(u32::from_le_bytes([raw[0], raw[1], raw[2], raw[3]]))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A 4 x 3 grid whose ice thins by 10 m a year from 35 m, with one cell that melts out
+    /// and is covered again.
+    fn thickness(year_offset: i32) -> Vec<f32> {
+        let mut h = vec![0.0_f32; 12];
+        for (idx, v) in h.iter_mut().enumerate().take(8) {
+            *v = (35.0 - 10.0 * year_offset as f32 + idx as f32).max(0.0);
+        }
+        // Cell 11: ice-free, covered in year 2, free again in year 4.
+        h[11] = if (2..4).contains(&year_offset) {
+            5.0
+        } else {
+            0.0
+        };
+        h
+    }
+
+    fn record(n_years: u32, budget: usize) -> Timeline {
+        let mut recorder = TimelineRecorder::new(4, 2000, n_years, &thickness(0), budget);
+        for y in 1..=n_years as i32 {
+            recorder.record_year(2000 + y, &thickness(y));
+        }
+        recorder.finish(&thickness(n_years as i32))
+    }
+
+    #[test]
+    fn every_year_is_exact_when_the_budget_allows() {
+        let timeline = record(5, DEFAULT_FRAME_BUDGET_BYTES);
+        assert_eq!(timeline.keyframe_interval(), 1);
+        for y in 0..=5 {
+            let h = thickness(y);
+            for (idx, &expected) in h.iter().enumerate() {
+                let got = timeline.ice_thickness_at(idx, 2000 + y);
+                let expected = if expected >= ICE_COVER_THRESHOLD_M {
+                    expected
+                } else {
+                    0.0
+                };
+                assert!(
+                    (got - expected).abs() <= THICKNESS_STEP_M / 2.0 + 1e-4,
+                    "year {y} cell {idx}: {got} vs {expected}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn exposure_years_follow_cover_toggles() {
+        let timeline = record(5, DEFAULT_FRAME_BUDGET_BYTES);
+        // Cell 0: 35, 25, 15, 5, 0 -> ice-free at the end of 2004.
+        assert_eq!(timeline.cover_at(0, 2003), (true, None));
+        assert_eq!(timeline.cover_at(0, 2004), (false, Some(2004)));
+        assert_eq!(timeline.cover_at(0, 2005), (false, Some(2004)));
+        // Cell 11: never covered at start, covered 2002-2003, free again in 2004.
+        assert_eq!(timeline.cover_at(11, 2001), (false, None));
+        assert_eq!(timeline.cover_at(11, 2002), (true, None));
+        assert_eq!(timeline.cover_at(11, 2004), (false, Some(2004)));
+        let mut exposed = Vec::new();
+        timeline.fill_exposure(2001, &mut exposed);
+        assert_eq!(exposed[0], COVERED);
+        assert_eq!(exposed[8], NEVER_COVERED);
+    }
+
+    #[test]
+    fn sparse_keyframes_interpolate_between_exact_frames() {
+        // A budget of two frames of the 8-cell box forces an interval above one.
+        let timeline = record(4, 2 * 16);
+        assert!(timeline.keyframe_interval() > 1);
+        let keyframes = timeline.keyframe_years();
+        assert_eq!(keyframes.first(), Some(&2000));
+        assert_eq!(keyframes.last(), Some(&2004));
+        // Cell 7 thins linearly 42, 32, 22, 12, 2: interpolation is exact for a linear change.
+        for y in 0..=4 {
+            let got = timeline.ice_thickness_at(7, 2000 + y);
+            assert!(
+                (got - (42.0 - 10.0 * y as f32)).abs() < 0.06,
+                "year {y}: {got}"
+            );
+        }
+        let mut grid = Vec::new();
+        timeline.fill_ice_thickness(2002, &mut grid);
+        for (idx, &h) in grid.iter().enumerate() {
+            assert_eq!(h, timeline.ice_thickness_at(idx, 2002), "cell {idx}");
+        }
+    }
+
+    #[test]
+    fn bytes_round_trip_and_truncation_is_refused() {
+        let timeline = record(5, DEFAULT_FRAME_BUDGET_BYTES);
+        let bytes = timeline.to_bytes();
+        assert_eq!(Timeline::from_bytes(&bytes), Ok(timeline));
+        assert!(matches!(
+            Timeline::from_bytes(&bytes[..bytes.len() - 3]),
+            Err(TimelineError::Truncated { .. })
+        ));
+        assert_eq!(
+            Timeline::from_bytes(b"not a timeline at all"),
+            Err(TimelineError::BadMagic)
+        );
+    }
+}
