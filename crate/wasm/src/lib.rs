@@ -1,12 +1,16 @@
 //! Thin wasm-bindgen layer over the Forefield engine: handles, small serde objects, and
 //! typed-array views into wasm memory for images. No model logic lives here.
 
+mod schema;
+
 use forefield_engine::geotiff::read_geotiff;
 use forefield_engine::heightmap_png::read_heightmap_png;
+use forefield_engine::layers::{self, LayerKind, LayerRenderer};
 use forefield_engine::render::{render_shaded, Legend, ELEVATION_RAMP};
 use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation};
 use forefield_engine::terrain::{self, Sun, TerrainDerivatives};
+use forefield_engine::timeline::{Timeline, TimelineRecorder, DEFAULT_FRAME_BUDGET_BYTES};
 use forefield_engine::{Grid, LoadError};
 use serde::Serialize;
 use wasm_bindgen::prelude::*;
@@ -50,10 +54,38 @@ struct LoadedTerrain {
     range: (f32, f32),
 }
 
+/// A recorded run loaded for viewing, with the shading of the bed under it.
+struct LoadedTimeline {
+    timeline: Timeline,
+    renderer: LayerRenderer,
+}
+
+/// What the page learns about a loaded timeline.
+#[derive(Serialize)]
+struct TimelineInfo {
+    start_year: i32,
+    last_year: i32,
+    keyframe_interval: u32,
+    memory_bytes: usize,
+}
+
+/// One cell through the recorded years.
+#[derive(Serialize)]
+struct CellHistory {
+    col: usize,
+    row: usize,
+    years: Vec<i32>,
+    ice_thickness_m: Vec<f32>,
+    /// Latest year the cell became ice-free by the last year, if it did.
+    exposure_year: Option<i32>,
+    covered_at_start: bool,
+}
+
 /// Everything the page has loaded, held in wasm memory behind one handle.
 #[wasm_bindgen]
 pub struct Workspace {
     terrain: Option<LoadedTerrain>,
+    timeline: Option<LoadedTimeline>,
     image_rgba: Vec<u8>,
 }
 
@@ -69,6 +101,7 @@ impl Workspace {
     pub fn new() -> Workspace {
         Workspace {
             terrain: None,
+            timeline: None,
             image_rgba: Vec::new(),
         }
     }
@@ -106,6 +139,8 @@ impl Workspace {
             nodata_cells: dem.geometry.n_cells() - dem.n_valid(),
             notes,
         };
+        // A run belongs to the terrain it was made on.
+        self.timeline = None;
         self.terrain = Some(LoadedTerrain {
             file_name: file_name.to_string(),
             dem,
@@ -205,6 +240,138 @@ impl Workspace {
     }
 }
 
+/// Timeline layers: a recorded run (from the worker) viewed year by year.
+#[wasm_bindgen]
+impl Workspace {
+    /// Takes a timeline recorded by [`RunRecorder::finish`] for the loaded terrain. On error
+    /// the timeline loaded before stays.
+    #[wasm_bindgen(js_name = loadTimeline)]
+    pub fn load_timeline(&mut self, bytes: &[u8]) -> Result<JsValue, JsError> {
+        let terrain = self
+            .terrain
+            .as_ref()
+            .ok_or_else(|| JsError::new("no terrain is loaded"))?;
+        let timeline =
+            Timeline::from_bytes(bytes).map_err(|e| JsError::new(&format!("run result: {e}")))?;
+        let g = &terrain.dem.geometry;
+        if timeline.n_cols() != g.n_cols || timeline.n_rows() != g.n_rows {
+            return Err(JsError::new(&format!(
+                "the run covers {} x {} cells but the terrain has {} x {}",
+                timeline.n_cols(),
+                timeline.n_rows(),
+                g.n_cols,
+                g.n_rows
+            )));
+        }
+        // Shade the bed (surface less the starting ice), so ground the ice leaves shows its
+        // own relief rather than the old glacier surface.
+        let mut bed = terrain.dem.clone();
+        for (idx, z) in bed.values.iter_mut().enumerate() {
+            *z -= timeline.ice_thickness_at(idx, timeline.start_year());
+        }
+        let shade = terrain::derivatives(&bed, Sun::default()).hillshade;
+        let renderer = LayerRenderer::new(&shade, &terrain.dem.nodata);
+        let info = TimelineInfo {
+            start_year: timeline.start_year(),
+            last_year: timeline.last_year(),
+            keyframe_interval: timeline.keyframe_interval(),
+            memory_bytes: timeline.memory_bytes(),
+        };
+        self.timeline = Some(LoadedTimeline { timeline, renderer });
+        to_js(&info)
+    }
+
+    #[wasm_bindgen(js_name = hasTimeline)]
+    pub fn has_timeline(&self) -> bool {
+        self.timeline.is_some()
+    }
+
+    /// Fills the RGBA image with `layer` ("ice_thickness", "exposure_year") at `year`.
+    #[wasm_bindgen(js_name = renderLayer)]
+    pub fn render_layer(&mut self, layer: &str, year: i32) -> Result<(), JsError> {
+        let kind = layer_kind(layer)?;
+        let loaded = self
+            .timeline
+            .as_mut()
+            .ok_or_else(|| JsError::new("no run has been made yet"))?;
+        loaded
+            .renderer
+            .render(&loaded.timeline, kind, year, &mut self.image_rgba);
+        Ok(())
+    }
+
+    /// Legend of a timeline layer.
+    #[wasm_bindgen(js_name = layerLegend)]
+    pub fn layer_legend(&self, layer: &str) -> Result<JsValue, JsError> {
+        let kind = layer_kind(layer)?;
+        let loaded = self
+            .timeline
+            .as_ref()
+            .ok_or_else(|| JsError::new("no run has been made yet"))?;
+        to_js(&layers::legend(&loaded.timeline, kind))
+    }
+
+    /// One cell's ice thickness for every recorded year and its exposure year, or `null`
+    /// off the grid.
+    #[wasm_bindgen(js_name = cellHistory)]
+    pub fn cell_history(&self, col: usize, row: usize) -> Result<JsValue, JsError> {
+        let Some(loaded) = self.timeline.as_ref() else {
+            return Ok(JsValue::NULL);
+        };
+        let timeline = &loaded.timeline;
+        if col >= timeline.n_cols() || row >= timeline.n_rows() {
+            return Ok(JsValue::NULL);
+        }
+        let idx = row * timeline.n_cols() + col;
+        let years: Vec<i32> = (timeline.start_year()..=timeline.last_year()).collect();
+        let ice_thickness_m = years
+            .iter()
+            .map(|&y| timeline.ice_thickness_at(idx, y))
+            .collect();
+        to_js(&CellHistory {
+            col,
+            row,
+            years,
+            ice_thickness_m,
+            exposure_year: timeline.cover_at(idx, timeline.last_year()).1,
+            covered_at_start: timeline.covered_at_start(idx),
+        })
+    }
+}
+
+fn layer_kind(name: &str) -> Result<LayerKind, JsError> {
+    LayerKind::from_name(name).ok_or_else(|| JsError::new(&format!("unknown layer {name:?}")))
+}
+
+/// The scenario a new page starts from, as JSON text.
+#[wasm_bindgen(js_name = defaultScenarioJson)]
+pub fn default_scenario_json() -> String {
+    Scenario::default().to_json()
+}
+
+/// The form's fields: group, label, explanation, default, range and unit of each.
+#[wasm_bindgen(js_name = scenarioSchema)]
+pub fn scenario_schema() -> Result<JsValue, JsError> {
+    #[derive(Serialize)]
+    struct Schema {
+        groups: Vec<(&'static str, &'static str)>,
+        fields: Vec<schema::FieldSchema>,
+    }
+    to_js(&Schema {
+        groups: schema::GROUPS.to_vec(),
+        fields: schema::scenario_schema(),
+    })
+}
+
+/// `null` when the engine accepts the scenario JSON, else `{ field, message }`.
+#[wasm_bindgen(js_name = checkScenario)]
+pub fn check_scenario(json: &str) -> Result<JsValue, JsError> {
+    match schema::check_scenario(json) {
+        None => Ok(JsValue::NULL),
+        Some(problem) => to_js(&problem),
+    }
+}
+
 fn to_js<T: Serialize>(value: &T) -> Result<JsValue, JsError> {
     value
         .serialize(&serde_wasm_bindgen::Serializer::json_compatible())
@@ -283,5 +450,90 @@ impl IceRun {
     #[wasm_bindgen(js_name = yearExposedPtr)]
     pub fn year_exposed_ptr(&self) -> *const i32 {
         self.simulation.year_exposed().as_ptr()
+    }
+}
+
+/// A run recorded year by year into a timeline: what the page's worker drives.
+#[wasm_bindgen]
+pub struct RunRecorder {
+    run: IceRun,
+    recorder: Option<TimelineRecorder>,
+}
+
+#[wasm_bindgen]
+impl RunRecorder {
+    /// As [`IceRun::new`]; the timeline starts from the initial ice.
+    #[wasm_bindgen(constructor)]
+    pub fn new(
+        scenario_json: &str,
+        surface_bytes: &[u8],
+        surface_name: &str,
+        ice_bytes: &[u8],
+        ice_name: &str,
+    ) -> Result<RunRecorder, JsError> {
+        let run = IceRun::new(
+            scenario_json,
+            surface_bytes,
+            surface_name,
+            ice_bytes,
+            ice_name,
+        )?;
+        let simulation = &run.simulation;
+        let recorder = TimelineRecorder::new(
+            simulation.geometry().n_cols,
+            simulation.start_year(),
+            (simulation.end_year() - simulation.start_year()) as u32,
+            simulation.ice_thickness_m(),
+            DEFAULT_FRAME_BUDGET_BYTES,
+        );
+        Ok(RunRecorder {
+            run,
+            recorder: Some(recorder),
+        })
+    }
+
+    /// Simulates and records the next year; returns its summary row, or `null` when done.
+    #[wasm_bindgen(js_name = stepYear)]
+    pub fn step_year(&mut self) -> Result<JsValue, JsError> {
+        let Some(recorder) = self.recorder.as_mut() else {
+            return Ok(JsValue::NULL);
+        };
+        match self.run.simulation.step_year() {
+            Some(row) => {
+                recorder.record_year(row.year, self.run.simulation.ice_thickness_m());
+                to_js(&row)
+            }
+            None => Ok(JsValue::NULL),
+        }
+    }
+
+    pub fn year(&self) -> i32 {
+        self.run.year()
+    }
+
+    #[wasm_bindgen(js_name = startYear)]
+    pub fn start_year(&self) -> i32 {
+        self.run.simulation.start_year()
+    }
+
+    #[wasm_bindgen(js_name = endYear)]
+    pub fn end_year(&self) -> i32 {
+        self.run.end_year()
+    }
+
+    /// Summary rows so far (start state first).
+    pub fn summary(&self) -> Result<JsValue, JsError> {
+        self.run.summary()
+    }
+
+    /// Ends recording and returns the timeline as bytes (for `Workspace.loadTimeline`).
+    pub fn finish(&mut self) -> Result<Vec<u8>, JsError> {
+        let recorder = self
+            .recorder
+            .take()
+            .ok_or_else(|| JsError::new("this run has already been finished"))?;
+        Ok(recorder
+            .finish(self.run.simulation.ice_thickness_m())
+            .to_bytes())
     }
 }
