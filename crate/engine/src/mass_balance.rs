@@ -29,8 +29,8 @@ pub const ENERGY_BALANCE_ELA_SENSITIVITY_M_PER_K: f64 = 87.5;
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct MassBalanceParams {
-    /// Equilibrium-line altitude at zero anomaly, m above sea level, 0 to 7000. Default 2900 m,
-    /// which suits the invented sample valley.
+    /// Equilibrium-line altitude at zero anomaly, m above sea level, 0 to 7000. Default 2900 m;
+    /// set it for the terrain: all ice-free ground above the ELA gains ice.
     pub ela_m: f64,
     /// ELA rise per degree of warming, m/K, 0 to 300. Default 120 (see the module notes).
     pub ela_sensitivity_m_per_k: f64,
