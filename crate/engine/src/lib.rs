@@ -18,6 +18,7 @@ pub mod ice_outline;
 pub mod layers;
 pub mod load_error;
 pub mod mass_balance;
+pub mod outline;
 pub mod pft;
 pub mod render;
 pub mod sample;

@@ -89,14 +89,14 @@ pub fn generate(n: usize) -> SampleValley {
 /// Position of the present ice front and the older moraine, as fractions of the valley length.
 const TONGUE_V: f64 = 0.56;
 const MORAINE_V: f64 = 0.66;
-const HEAD_V: f64 = 0.04;
+const HEAD_V: f64 = 0.0;
 const BASIN_DEPTH_M: f64 = 110.0;
 
 fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
     let centre_u = 0.5 + 0.07 * (2.6 * v + 0.4).sin();
     let d = (u - centre_u).abs();
     let floor = 2950.0 - 1550.0 * v.powf(0.85);
-    let ridge = 3250.0 - 350.0 * v;
+    let ridge = 2850.0 - 400.0 * v;
     // U-shaped trough up to a crest at d = 0.3, falling towards neighbouring valleys beyond.
     let cross = if d < 0.3 {
         (d / 0.3).powf(1.5)
@@ -107,7 +107,7 @@ fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
     // Cirque headwall closing the valley to the north.
     if v < 0.14 {
         let t = (0.14 - v) / 0.14;
-        centreline += (ridge - floor) * 0.8 * t * t;
+        centreline += 320.0 * t * t;
     }
     let mut z = centreline + (ridge - centreline) * cross;
     // A side spur on the west wall and a hanging tributary notch on the east.
@@ -130,8 +130,8 @@ fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
     // what lies between that surface and the bed, so the margin follows the valley walls.
     let ice = if v > HEAD_V && v < TONGUE_V {
         let along = ((TONGUE_V - v) / (TONGUE_V - HEAD_V)).sqrt();
-        let head_taper = ((v - HEAD_V) / 0.05).min(1.0);
-        let surface = centreline + 190.0 * along * head_taper - 40.0 * (d / 0.12).powi(2);
+        let head_taper = ((v - HEAD_V) / 0.08).min(1.0);
+        let surface = centreline + 120.0 * along * head_taper - 30.0 * (d / 0.12).powi(2);
         (surface - z).max(0.0)
     } else {
         0.0
