@@ -1,5 +1,6 @@
 // The legend: the engine's colour ramp as a vertical bar, high values at the top like a
-// mountain, with round-valued ticks in the legend's own unit.
+// mountain, with round-valued ticks in the legend's own unit, and swatches for the named
+// classes (ground a ramp does not describe, or categories).
 
 const TICK_TARGET = 5;
 
@@ -31,12 +32,15 @@ export function renderLegend(container, legend, formatNumber) {
   container.replaceChildren();
   if (!legend || !legend.stops?.length) return;
   const { title, unit, min, max, stops } = legend;
+  // Years read as years: no thousands separator, no unit after each tick.
+  const isYear = unit === 'year';
+  if (isYear) formatNumber = (value) => String(Math.round(value));
   const span = max - min || 1;
   const fraction = (value) => Math.min(1, Math.max(0, (value - min) / span));
 
   const heading = document.createElement('p');
   heading.className = 'legend-title';
-  heading.textContent = `${title} (${unit})`;
+  heading.textContent = isYear ? title : `${title} (${unit})`;
 
   // The gradient runs from top (max) to bottom (min), with each stop at its own value.
   const gradientStops = [...stops]
@@ -48,7 +52,7 @@ export function renderLegend(container, legend, formatNumber) {
 
   const ticks = document.createElement('div');
   ticks.className = 'legend-ticks';
-  const label = (value) => `${formatNumber(value)} ${unit}`;
+  const label = (value) => (isYear ? formatNumber(value) : `${formatNumber(value)} ${unit}`);
   // Always label both ends; skip round ticks that would crowd them.
   const values = [max, ...niceTicks(min, max).filter((v) => fraction(v) > 0.1 && fraction(v) < 0.9), min];
   for (const value of values) {
@@ -69,7 +73,18 @@ export function renderLegend(container, legend, formatNumber) {
 
   const note = document.createElement('p');
   note.className = 'legend-note';
-  note.textContent = 'Over shaded relief lit from the north-west.';
+  note.textContent = legend.note ?? 'Over shaded relief lit from the north-west.';
 
-  container.append(heading, body, note);
+  const classes = document.createElement('ul');
+  classes.className = 'legend-classes';
+  for (const { label: name, rgb } of legend.classes ?? []) {
+    const item = document.createElement('li');
+    const swatch = document.createElement('span');
+    swatch.className = 'legend-swatch';
+    swatch.style.background = rgbCss(rgb);
+    item.append(swatch, name);
+    classes.append(item);
+  }
+
+  container.append(heading, body, classes, note);
 }

@@ -1,11 +1,18 @@
 // Page boot and wiring: starts the engine, loads the bundled sample, and connects the map,
-// the loaders, the legend, the readout and the error area.
+// the loaders, the legend, the readout, the error area, the scenario form, the run (in a
+// worker), the time bar, the cell history and the charts. This thread only renders: runs
+// happen in worker.js, which hands back the recorded timeline as one transferred buffer.
 
 import { MapView } from './map.js';
 import { attachLoaders, readTerrainSelection, SelectionError } from './loaders.js';
 import { renderLegend } from './legend.js';
+import { ScenarioForm } from './scenario_form.js';
+import { TimeBar } from './timebar.js';
+import { LineChart } from './charts.js';
 
 const SAMPLE_URL = './sample-grids/valley_dem.tif';
+const SAMPLE_ICE_URL = './sample-grids/valley_ice_thickness.tif';
+const SAMPLE_NAME = 'valley_dem.tif';
 
 const element = (id) => document.getElementById(id);
 
@@ -21,7 +28,8 @@ function formatNumber(value, decimals = 0) {
   return numberFormats.get(decimals).format(value);
 }
 
-function showError(message) {
+function showError(message, title = 'File not loaded') {
+  element('error-message').closest('.error-area').querySelector('.error-title').textContent = title;
   element('error-message').textContent = message;
   element('error-area').hidden = false;
 }
@@ -51,10 +59,39 @@ function showInfo(info) {
   }));
 }
 
-const READOUT_FIELDS = ['easting', 'northing', 'elevation', 'slope', 'aspect', 'cell'];
+const READOUT_FIELDS = ['easting', 'northing', 'elevation', 'slope', 'aspect', 'cell', 'ice', 'exposed'];
 
-function showReadout(cell) {
+/**
+ * Exposure as of `year` from a cell history: the latest year the cell went from ice to
+ * ice-free at or before `year`, as the engine defines it.
+ */
+function exposureAsOf(history, year) {
+  const index = Math.min(history.years.length - 1, year - history.years[0]);
+  const ice = history.ice_thickness_m;
+  if (ice[index] > 0) return { underIce: true, year: null };
+  for (let i = index; i > 0; i -= 1) {
+    if (ice[i] === 0 && ice[i - 1] > 0) return { underIce: false, year: history.years[i] };
+  }
+  return { underIce: false, year: null };
+}
+
+function exposureText(history, year) {
+  const state = exposureAsOf(history, year);
+  if (state.underIce) return `under ice in ${year}`;
+  if (state.year != null) return `in ${state.year}`;
+  return history.covered_at_start ? '–' : 'ice-free at the start';
+}
+
+function showReadout(cell, history = null, year = null) {
   const set = (name, text) => { element(`ro-${name}`).textContent = text; };
+  if (cell && history) {
+    const index = year - history.years[0];
+    set('ice', `${formatNumber(history.ice_thickness_m[index], 1)} m in ${year}`);
+    set('exposed', exposureText(history, year));
+  } else {
+    set('ice', '–');
+    set('exposed', '–');
+  }
   if (!cell) {
     READOUT_FIELDS.forEach((name) => set(name, '–'));
     element('readout-hint').textContent = 'Point at the map to read a cell.';
@@ -79,13 +116,14 @@ function showReadout(cell) {
 async function boot() {
   const mapMessage = element('map-message');
   let wasm;
+  let engine;
   let workspace;
   try {
     // Imported here rather than at the top so a missing or broken engine build still
     // leaves a page that says what went wrong.
-    const { default: init, Workspace } = await import('./pkg/forefield_wasm.js');
-    wasm = await init();
-    workspace = new Workspace();
+    engine = await import('./pkg/forefield_wasm.js');
+    wasm = await engine.default();
+    workspace = new engine.Workspace();
   } catch (error) {
     document.body.dataset.state = 'failed';
     mapMessage.textContent = 'The map engine could not start in this browser.';
@@ -94,23 +132,101 @@ async function boot() {
   }
 
   let info = null;
+  // The GeoTIFF bytes a run needs: the terrain as surface, and an ice-thickness grid.
+  let surface = null;
+  let ice = null;
+  let lastRun = null;
+  let summary = null;
+  let timelineInfo = null;
+  let layer = 'terrain';
+  let selected = null;
+  let selectedHistory = null;
+  let hovered = null;
+  let hoveredHistory = null;
+
+  const currentYear = () => (timelineInfo ? timeBar.year() : null);
+
   const map = new MapView(element('map'), (cell) => {
-    showReadout(cell && workspace.hasTerrain() ? workspace.readout(cell.col, cell.row) : null);
+    hovered = cell;
+    hoveredHistory = cell && workspace.hasTimeline() ? workspace.cellHistory(cell.col, cell.row) : null;
+    showReadout(cell && workspace.hasTerrain() ? workspace.readout(cell.col, cell.row) : null,
+      hoveredHistory, currentYear());
+  }, (cell) => selectCell(cell));
+
+  const areaChart = new LineChart(element('chart-area'), { title: 'Ice area', unit: 'km²', colour: '#2f6db0', decimals: 2 });
+  const volumeChart = new LineChart(element('chart-volume'), { title: 'Ice volume', unit: 'km³', colour: '#1b306c', decimals: 3 });
+  const historyChart = new LineChart(element('history-chart'), { title: 'Ice thickness here', unit: 'm', colour: '#2f6db0', decimals: 1 });
+
+  /** Draws the current layer and year; the view over wasm memory is made afresh each time
+   *  because an engine call may have grown (and so moved) that memory. */
+  function drawMap({ keepView = true, legend = false } = {}) {
+    if (!workspace.hasTerrain()) return;
+    if (layer === 'terrain') workspace.renderTerrain();
+    else workspace.renderLayer(layer, timeBar.year());
+    const pixels = new Uint8ClampedArray(wasm.memory.buffer, workspace.imagePtr(), workspace.imageLen());
+    map.setImage(new ImageData(pixels, workspace.imageWidth(), workspace.imageHeight()), info.cell_size_m, { keepView });
+    if (legend) {
+      renderLegend(element('legend'), layer === 'terrain' ? workspace.legend() : workspace.layerLegend(layer),
+        (value) => formatNumber(value));
+    }
+    const label = { terrain: 'Terrain map: shaded relief with elevation colours',
+      ice_thickness: `Ice thickness in ${currentYear()} over shaded relief`,
+      exposure_year: `Year each cell became ice-free, as of ${currentYear()}` }[layer];
+    element('map').setAttribute('aria-label', label);
+    document.body.dataset.drawn = `${layer}:${currentYear() ?? ''}`;
+  }
+
+  const timeBar = new TimeBar({
+    slider: element('year-slider'), back: element('year-back'), forward: element('year-forward'),
+    play: element('play'), label: element('year-label'),
+  }, (year) => {
+    if (!timelineInfo) return;
+    drawMap();
+    areaChart.setMarker(year);
+    volumeChart.setMarker(year);
+    historyChart.setMarker(year);
+    showHistoryYear(year);
+    if (hovered) {
+      showReadout(workspace.readout(hovered.col, hovered.row), hoveredHistory, year);
+    }
   });
 
-  // One render per loaded terrain: the engine fills its RGBA buffer, and the view over wasm
-  // memory is made afresh because loading may have grown (and so moved) that memory.
-  function drawTerrain() {
-    workspace.renderTerrain();
-    const pixels = new Uint8ClampedArray(
-      wasm.memory.buffer, workspace.imagePtr(), workspace.imageLen(),
-    );
-    const image = new ImageData(pixels, workspace.imageWidth(), workspace.imageHeight());
-    map.setImage(image, info.cell_size_m);
-    renderLegend(element('legend'), workspace.legend(), (value) => formatNumber(value));
-    showInfo(info);
-    showReadout(null);
-    mapMessage.textContent = '';
+  function showHistoryYear(year) {
+    if (!selectedHistory) return;
+    element('hi-ice-label').textContent = `Ice in ${year}`;
+    element('hi-ice').textContent = `${formatNumber(selectedHistory.ice_thickness_m[year - selectedHistory.years[0]], 1)} m`;
+  }
+
+  function selectCell(cell) {
+    if (!workspace.hasTimeline()) return;
+    selected = cell;
+    selectedHistory = workspace.cellHistory(cell.col, cell.row);
+    map.setSelected(cell);
+    element('history').hidden = false;
+    element('history-hint').textContent = 'The outlined cell; the dashed line is the year on the map.';
+    element('hi-cell').textContent = `col ${cell.col}, row ${cell.row}`;
+    const h = selectedHistory;
+    element('hi-exposed').textContent = h.exposure_year != null
+      ? String(h.exposure_year)
+      : (h.covered_at_start ? `still under ice in ${timelineInfo.last_year}` : 'ice-free at the start');
+    historyChart.setData(h.years, h.ice_thickness_m);
+    historyChart.setMarker(timeBar.year());
+    showHistoryYear(timeBar.year());
+  }
+
+  function clearRunResult() {
+    timelineInfo = null;
+    summary = null;
+    selected = null;
+    selectedHistory = null;
+    map.setSelected(null);
+    element('history').hidden = true;
+    element('history-hint').textContent = 'After a run, click a cell on the map to see its history.';
+    for (const option of element('layer').options) option.disabled = option.value !== 'terrain';
+    layer = 'terrain';
+    element('layer').value = 'terrain';
+    areaChart.setData([], []);
+    volumeChart.setData([], []);
   }
 
   /** Hands one file's bytes to the engine; on failure the previous terrain stays shown. */
@@ -124,7 +240,14 @@ async function boot() {
       return false;
     }
     clearError();
-    drawTerrain();
+    clearRunResult();
+    // A run needs the surface as GeoTIFF bytes; the sample comes with its own ice grid.
+    surface = sidecarText === undefined ? { bytes, name: fileName } : null;
+    ice = null;
+    drawMap({ keepView: false, legend: true });
+    showInfo(info);
+    showReadout(null);
+    mapMessage.textContent = '';
     document.body.dataset.loads = String(Number(document.body.dataset.loads ?? 0) + 1);
     return true;
   }
@@ -145,6 +268,163 @@ async function boot() {
     }
   }
 
+  async function fetchBytes(url) {
+    const response = await fetch(url);
+    if (!response.ok) throw new Error(`the server answered ${response.status}`);
+    return new Uint8Array(await response.arrayBuffer());
+  }
+
+  // --- Scenario form and run -------------------------------------------------------------
+  const form = new ScenarioForm(element('scenario-form'), {
+    schema: engine.scenarioSchema(),
+    defaultsJson: engine.defaultScenarioJson(),
+    check: (json) => engine.checkScenario(json),
+    onChange: () => {},
+  });
+  element('scenario-reset').addEventListener('click', () => form.reset());
+  element('scenario-save').addEventListener('click', () => form.download());
+  element('scenario-open').addEventListener('click', () => element('scenario-input').click());
+  element('scenario-input').addEventListener('change', async (event) => {
+    const [file] = event.target.files;
+    event.target.value = '';
+    if (!file) return;
+    const problem = await form.load(file);
+    if (problem) showError(problem, 'Scenario not loaded');
+    else clearError();
+  });
+
+  const runStatus = element('run-status');
+  const progress = element('run-progress');
+  let worker = null;
+  let running = false;
+
+  function setRunning(value) {
+    running = value;
+    element('run').disabled = value;
+    element('cancel').disabled = !value;
+  }
+
+  function setRunState(state, text) {
+    document.body.dataset.run = state;
+    runStatus.textContent = text;
+  }
+
+  function makeWorker() {
+    const created = new Worker('./worker.js', { type: 'module' });
+    created.onmessage = (event) => onWorkerMessage(event.data);
+    created.onerror = (event) => {
+      setRunning(false);
+      setRunState('failed', 'The run could not start.');
+      showError(`The simulation worker failed: ${event.message ?? 'unknown error'}.`, 'Run failed');
+    };
+    return created;
+  }
+
+  function onWorkerMessage(message) {
+    if (message.type === 'started') {
+      progress.max = message.endYear - message.startYear;
+      progress.value = 0;
+    } else if (message.type === 'progress') {
+      const done = message.year - message.startYear;
+      progress.value = done;
+      setRunState('running', `Year ${message.year} of ${message.endYear} (${done} of ${message.endYear - message.startYear} done)`);
+    } else if (message.type === 'done') {
+      setRunning(false);
+      try {
+        timelineInfo = workspace.loadTimeline(new Uint8Array(message.timeline));
+      } catch (error) {
+        setRunState('failed', 'The run result could not be shown.');
+        showError(error.message ?? String(error), 'Run failed');
+        return;
+      }
+      summary = message.summary;
+      progress.value = progress.max;
+      const mib = timelineInfo.memory_bytes / 2 ** 20;
+      setRunState('done', `Done: ${timelineInfo.start_year} to ${timelineInfo.last_year}. Timeline ${formatNumber(mib, 1)} MiB.`);
+      for (const option of element('layer').options) option.disabled = false;
+      if (layer === 'terrain') {
+        layer = 'ice_thickness';
+        element('layer').value = layer;
+      }
+      const years = summary.map((row) => row.year);
+      areaChart.setData(years, summary.map((row) => row.ice_area_km2));
+      volumeChart.setData(years, summary.map((row) => row.ice_volume_km3));
+      timeBar.setRange(timelineInfo.start_year, timelineInfo.last_year, timelineInfo.last_year);
+      drawMap({ legend: true });
+      if (selected) selectCell(selected);
+    } else if (message.type === 'cancelled') {
+      setRunning(false);
+      setRunState('cancelled', `Cancelled at ${message.year}. ${timelineInfo ? 'The previous result stays.' : ''}`);
+    } else if (message.type === 'failed') {
+      setRunning(false);
+      setRunState('failed', 'The run failed; see the message.');
+      const names = lastRun ? ` (${lastRun.surface.name}, ${lastRun.ice.name})` : '';
+      showError(`${message.message}${names}`, 'Run failed');
+    }
+  }
+
+  async function startRun() {
+    if (running) return;
+    const scenarioJson = form.validJson();
+    if (!scenarioJson) {
+      setRunState('invalid', 'Not run: fix the flagged values first.');
+      return;
+    }
+    if (!surface) {
+      setRunState('invalid', 'Not run: runs need the terrain as a GeoTIFF.');
+      return;
+    }
+    clearError();
+    setRunning(true);
+    setRunState('running', 'Starting…');
+    try {
+      if (!ice && surface.name === SAMPLE_NAME) {
+        ice = { bytes: await fetchBytes(SAMPLE_ICE_URL), name: 'valley_ice_thickness.tif' };
+      }
+    } catch (error) {
+      setRunning(false);
+      setRunState('failed', 'The sample ice grid could not be fetched.');
+      showError(`valley_ice_thickness.tif could not be fetched: ${error.message}.`, 'Run failed');
+      return;
+    }
+    if (!ice) {
+      setRunning(false);
+      setRunState('invalid', 'Not run: open an ice-thickness grid that matches the terrain.');
+      return;
+    }
+    lastRun = { scenarioJson, surface, ice };
+    worker ??= makeWorker();
+    worker.postMessage({
+      type: 'run', scenarioJson, surfaceBytes: surface.bytes, surfaceName: surface.name,
+      iceBytes: ice.bytes, iceName: ice.name,
+    });
+  }
+
+  element('run').addEventListener('click', startRun);
+  element('cancel').addEventListener('click', () => {
+    if (!running) return;
+    setRunState('running', 'Cancelling…');
+    worker.postMessage({ type: 'cancel' });
+  });
+  element('open-ice').addEventListener('click', () => element('ice-input').click());
+  element('ice-input').addEventListener('change', async (event) => {
+    const [file] = event.target.files;
+    event.target.value = '';
+    if (!file) return;
+    try {
+      ice = { bytes: new Uint8Array(await file.arrayBuffer()), name: file.name };
+      // The engine checks it against the terrain when the run starts, naming both files.
+      setRunState('ready', `Ice grid: ${file.name}.`);
+    } catch (error) {
+      showError(`${file.name}: could not be read (${error.message}).`);
+    }
+  });
+
+  element('layer').addEventListener('change', (event) => {
+    layer = event.target.value;
+    drawMap({ legend: true });
+  });
+
   attachLoaders({
     button: element('open-terrain'),
     input: element('terrain-input'),
@@ -160,16 +440,37 @@ async function boot() {
   window.forefield = {
     readoutAt: (col, row) => workspace.readout(col, row),
     info: () => info,
-    legend: () => (workspace.hasTerrain() ? workspace.legend() : null),
+    legend: () => (!workspace.hasTerrain() ? null
+      : layer === 'terrain' ? workspace.legend() : workspace.layerLegend(layer)),
     cellCentreOnPage: (col, row) => map.cellCentreOnPage(col, row),
+    state: () => ({ run: document.body.dataset.run ?? 'none', layer, year: currentYear(), timeline: timelineInfo,
+      summaryYears: summary?.length ?? 0 }),
+    cellHistory: (col, row) => workspace.cellHistory(col, row),
+    chartMarkerX: () => areaChart.markerX(),
+    /** The last run's scenario stepped here through the engine's own IceRun (not the worker,
+     *  not the timeline): thickness and exposure year of one cell for every year. */
+    engineCellSeries: (col, row) => {
+      const run = new engine.IceRun(lastRun.scenarioJson, lastRun.surface.bytes, lastRun.surface.name,
+        lastRun.ice.bytes, lastRun.ice.name);
+      try {
+        const idx = row * info.n_cols + col;
+        const years = [run.year()];
+        const thickness = [new Float32Array(wasm.memory.buffer, run.iceThicknessPtr(), run.nCells())[idx]];
+        while (run.stepYears(1) > 0) {
+          years.push(run.year());
+          thickness.push(new Float32Array(wasm.memory.buffer, run.iceThicknessPtr(), run.nCells())[idx]);
+        }
+        const exposed = new Int32Array(wasm.memory.buffer, run.yearExposedPtr(), run.nCells())[idx];
+        return { years, ice_thickness_m: thickness, year_exposed: exposed };
+      } finally {
+        run.free();
+      }
+    },
   };
 
   mapMessage.textContent = 'Loading the sample valley…';
   try {
-    const response = await fetch(SAMPLE_URL);
-    if (!response.ok) throw new Error(`the server answered ${response.status}`);
-    const bytes = new Uint8Array(await response.arrayBuffer());
-    loadBytes(bytes, 'valley_dem.tif');
+    loadBytes(await fetchBytes(SAMPLE_URL), SAMPLE_NAME);
   } catch (error) {
     showError(`The sample valley_dem.tif could not be fetched: ${error.message}.`);
   }

@@ -9,11 +9,15 @@ export class MapView {
    * @param {HTMLCanvasElement} canvas the visible map canvas
    * @param {(cell: {col: number, row: number} | null) => void} onCell called when the cell
    *   under the pointer (or the centre cross) changes; null when off the grid
+   * @param {(cell: {col: number, row: number}) => void} [onSelect] called when a cell is
+   *   clicked (without dragging) or chosen with Enter under the centre cross
    */
-  constructor(canvas, onCell) {
+  constructor(canvas, onCell, onSelect = () => {}) {
     this.canvas = canvas;
     this.context = canvas.getContext('2d');
     this.onCell = onCell;
+    this.onSelect = onSelect;
+    this.selected = null;
     // The whole grid image at one pixel per cell. putImageData fills it once per render;
     // pan and zoom only redraw it scaled, so they never touch wasm memory.
     this.image = document.createElement('canvas');
@@ -47,6 +51,12 @@ export class MapView {
     this.cellSizeM = cellSizeM;
     if (sizeChanged || !keepView) this.fit();
     else this.draw();
+  }
+
+  /** Outlines one cell (the one whose history is shown), or none. */
+  setSelected(cell) {
+    this.selected = cell;
+    this.draw();
   }
 
   hasImage() {
@@ -157,6 +167,7 @@ export class MapView {
       Math.round(this.offsetX) - 0.5, Math.round(this.offsetY) - 0.5,
       Math.round(this.imageWidth * this.scale) + 1, Math.round(this.imageHeight * this.scale) + 1,
     );
+    if (this.selected) this.drawSelection(ctx);
     this.drawScaleBar(ctx);
     if (this.keyboardCross) {
       this.drawCross(ctx);
@@ -174,6 +185,18 @@ export class MapView {
       ctx.moveTo(x - 10, y); ctx.lineTo(x + 10, y);
       ctx.moveTo(x, y - 10); ctx.lineTo(x, y + 10);
       ctx.stroke();
+    }
+  }
+
+  /** A dark-and-light square around the selected cell, at least 9 px so it shows zoomed out. */
+  drawSelection(ctx) {
+    const size = Math.max(9, this.scale);
+    const x = this.offsetX + (this.selected.col + 0.5) * this.scale - size / 2;
+    const y = this.offsetY + (this.selected.row + 0.5) * this.scale - size / 2;
+    for (const [colour, width] of [['rgba(255,255,255,0.95)', 3], ['#b0521d', 1.5]]) {
+      ctx.strokeStyle = colour;
+      ctx.lineWidth = width;
+      ctx.strokeRect(x, y, size, size);
     }
   }
 
@@ -208,7 +231,8 @@ export class MapView {
     canvas.addEventListener('pointerdown', (event) => {
       if (event.button !== 0) return;
       canvas.setPointerCapture(event.pointerId);
-      this.drag = { ...local(event), id: event.pointerId };
+      const point = local(event);
+      this.drag = { ...point, id: event.pointerId, startX: point.x, startY: point.y };
       canvas.classList.add('dragging');
     });
     canvas.addEventListener('pointermove', (event) => {
@@ -231,7 +255,16 @@ export class MapView {
         canvas.classList.remove('dragging');
       }
     };
-    canvas.addEventListener('pointerup', endDrag);
+    canvas.addEventListener('pointerup', (event) => {
+      const drag = this.drag;
+      endDrag(event);
+      if (!drag || drag.id !== event.pointerId) return;
+      // A press that barely moved is a click on a cell, not a pan.
+      const point = local(event);
+      if (Math.hypot(point.x - drag.startX, point.y - drag.startY) > 4) return;
+      const cell = this.cellAtScreen(point.x, point.y);
+      if (cell) this.onSelect(cell);
+    });
     canvas.addEventListener('pointercancel', endDrag);
     canvas.addEventListener('pointerleave', () => {
       if (!this.keyboardCross) this.reportCell(null);
@@ -258,6 +291,10 @@ export class MapView {
         '=': () => this.zoomIn(),
         '-': () => this.zoomOut(),
         '0': () => this.fit(),
+        Enter: () => {
+          const cell = this.cellAtScreen(this.cssWidth / 2, this.cssHeight / 2);
+          if (cell) this.onSelect(cell);
+        },
       };
       const action = actions[event.key];
       if (!action || !this.hasImage()) return;
