@@ -280,6 +280,7 @@ async function boot() {
     defaultsJson: engine.defaultScenarioJson(),
     check: (json) => engine.checkScenario(json),
     onChange: () => {},
+    messageHost: element('run-status').parentElement,
   });
   element('scenario-reset').addEventListener('click', () => form.reset());
   element('scenario-save').addEventListener('click', () => form.download());

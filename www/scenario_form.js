@@ -28,9 +28,10 @@ export class ScenarioForm {
   /**
    * @param {HTMLElement} container where the fieldsets go
    * @param {{ schema: object, defaultsJson: string, check: (json: string) => object | null,
-   *   onChange: () => void }} engine
+   *   onChange: () => void, messageHost?: HTMLElement }} engine messageHost holds the
+   *   form-wide message (outside the scrolling fields, so it is always seen)
    */
-  constructor(container, { schema, defaultsJson, check, onChange }) {
+  constructor(container, { schema, defaultsJson, check, onChange, messageHost = container }) {
     this.container = container;
     this.schema = schema;
     this.defaults = JSON.parse(defaultsJson);
@@ -41,6 +42,7 @@ export class ScenarioForm {
     this.formMessage.className = 'form-message';
     this.formMessage.setAttribute('role', 'alert');
     this.formMessage.hidden = true;
+    messageHost.append(this.formMessage);
     this.build();
     this.scenario = this.restore();
     this.fill();
@@ -86,7 +88,7 @@ export class ScenarioForm {
       groups.get(field.group).append(wrapper);
       this.inputs.set(field.path, { field, input, error });
     }
-    this.container.append(this.formMessage, ...groups.values());
+    this.container.append(...groups.values());
   }
 
   /** The stored scenario if the engine still accepts it, else the defaults. */
@@ -169,6 +171,8 @@ export class ScenarioForm {
       if (!this.readField(field) && !firstBad) firstBad = input;
     }
     if (firstBad) {
+      // A folded group would hide the flagged field.
+      firstBad.closest('details').open = true;
       this.showFormMessage('Some values need attention; nothing was sent to the engine.');
       firstBad.focus();
       return null;
@@ -178,6 +182,7 @@ export class ScenarioForm {
     if (problem) {
       const entry = problem.field && this.inputs.get(problem.field);
       if (entry) {
+        entry.input.closest('details').open = true;
         this.flag(entry.input, entry.error, problem.message);
         entry.input.focus();
       }
