@@ -6,6 +6,7 @@ mod ice_halfar;
 mod ice_mass_balance;
 mod ice_outline;
 mod ice_response;
+mod outline_mask;
 mod terrain_horn;
 mod veg_chronosequence;
 mod veg_kernels;

@@ -10,6 +10,7 @@ use forefield_engine::exposure::{ICE_FREE_AT_START, STILL_ICE_COVERED};
 use forefield_engine::geotiff::{read_geotiff, write_geotiff};
 use forefield_engine::grid::Grid;
 use forefield_engine::ice_outline::thickness_from_outline;
+use forefield_engine::outline::outline_mask;
 use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation, YearSummary};
 
@@ -111,24 +112,43 @@ fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<(Grid, Grid)> {
     let surface = read_grid(base, &grids.surface_elevation)?;
     let bed = read_grid(base, &grids.bed_elevation)?;
     let thickness = read_grid(base, &grids.ice_thickness)?;
-    let mask = read_grid(base, &grids.glacier_mask)?;
+    // A glacier outline is a GeoTIFF mask or a GeoJSON polygon file.
+    let outline_text = match grids.glacier_mask.as_deref() {
+        Some(name) if is_geojson(name) => {
+            let path = base.join(name);
+            Some(
+                std::fs::read_to_string(&path)
+                    .with_context(|| format!("reading {}", path.display()))?,
+            )
+        }
+        _ => None,
+    };
+    let mask = match outline_text {
+        Some(_) => None,
+        None => read_grid(base, &grids.glacier_mask)?,
+    };
     let zero_like = |grid: &Grid| Grid::filled(grid.geometry, 0.0);
     Ok(match (surface, bed, thickness, mask) {
         (_, Some(bed), Some(thickness), None) => (bed, thickness),
         (Some(surface), None, Some(thickness), None) => {
             (bed_from_surface(&surface, &thickness)?, thickness)
         }
-        (Some(surface), None, None, Some(mask)) => {
+        (Some(surface), None, None, mask) if mask.is_some() || outline_text.is_some() => {
             let name = grids.glacier_mask.as_deref().unwrap_or_default();
-            if !surface.geometry.aligns_with(&mask.geometry) {
-                bail!("{name}: glacier mask does not line up with the surface grid");
-            }
-            let inside: Vec<bool> = mask
-                .values
-                .iter()
-                .zip(&mask.nodata)
-                .map(|(&v, &missing)| !missing && v > 0.0)
-                .collect();
+            let inside: Vec<bool> = match (mask, &outline_text) {
+                (_, Some(text)) => outline_mask(text, name, &surface.geometry)?,
+                (Some(mask), None) => {
+                    if !surface.geometry.aligns_with(&mask.geometry) {
+                        bail!("{name}: glacier mask does not line up with the surface grid");
+                    }
+                    mask.values
+                        .iter()
+                        .zip(&mask.nodata)
+                        .map(|(&v, &missing)| !missing && v > 0.0)
+                        .collect()
+                }
+                (None, None) => bail!("{name}: no glacier outline was read"),
+            };
             let estimate = thickness_from_outline(
                 &surface,
                 &inside,
@@ -157,6 +177,12 @@ fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<(Grid, Grid)> {
         // Scenario validation refuses every other combination.
         _ => bail!("the scenario's grids are not a usable combination"),
     })
+}
+
+/// Outline files are told apart from GeoTIFF masks by their extension.
+fn is_geojson(name: &str) -> bool {
+    let lower = name.to_ascii_lowercase();
+    lower.ends_with(".geojson") || lower.ends_with(".json")
 }
 
 fn write_file(path: &Path, bytes: Vec<u8>) -> Result<()> {
