@@ -232,6 +232,17 @@ fn bounding_box(n_cols: usize, n_rows: usize, keep: impl Fn(usize) -> bool) -> O
 
 /// Sum in four fixed lanes: vectorises, and the order (so the result) is the same on
 /// every platform.
+/// `x.max(0.0)` as a compare and select: `f64::max` must ignore NaN, which wasm's `f64.max`
+/// does not, so in wasm it becomes a branchy sequence that keeps the loop scalar.
+#[inline(always)]
+pub(crate) fn positive_part(x: f64) -> f64 {
+    if x > 0.0 {
+        x
+    } else {
+        0.0
+    }
+}
+
 fn sum_lanes(values: &[f64]) -> f64 {
     let mut lanes = [0.0_f64; 4];
     let chunks = values.chunks_exact(4);
@@ -548,10 +559,10 @@ impl SiaStepper {
             let h = &thickness_m[cells..][..n];
             let scale = &mut self.outflow_scale[cells + 1..][..n];
             for k in 0..n {
-                let outflow = east[k + 1].max(0.0)
-                    + (-east[k]).max(0.0)
-                    + south[k].max(0.0)
-                    + (-north[k]).max(0.0);
+                let outflow = positive_part(east[k + 1])
+                    + positive_part(-east[k])
+                    + positive_part(south[k])
+                    + positive_part(-north[k]);
                 scale[k] = if outflow > h[k] { h[k] / outflow } else { 1.0 };
             }
         }
@@ -612,7 +623,7 @@ impl SiaStepper {
                     - limited(north[k], scale_north[k], scale_here);
                 let after_flow = h[k] - divergence;
                 let rate = balance.rate_m_per_a(surface[k]) * open[k];
-                let new_h = (after_flow + rate * dt_a).max(0.0);
+                let new_h = positive_part(after_flow + rate * dt_a);
                 added[k] = new_h - after_flow;
                 h[k] = new_h;
             }

@@ -143,10 +143,17 @@ impl LinearBalance {
     #[inline]
     pub fn rate_m_per_a(&self, surface_m: f64) -> f64 {
         let dz = surface_m - self.ela_m;
-        // Written as min/max so the inner loop has no data-dependent branch.
-        let below = self.gradient_below_per_a * dz.min(0.0);
-        let above = (self.gradient_above_per_a * dz.max(0.0)).min(self.max_accumulation_m_per_a);
-        below + above
+        // Compare-and-select rather than f64::min/max, whose NaN rule keeps wasm loops scalar;
+        // either way the inner loop has no data-dependent branch.
+        let below = self.gradient_below_per_a * if dz < 0.0 { dz } else { 0.0 };
+        let above_uncapped = self.gradient_above_per_a * if dz > 0.0 { dz } else { 0.0 };
+        let cap = self.max_accumulation_m_per_a;
+        below
+            + if above_uncapped < cap {
+                above_uncapped
+            } else {
+                cap
+            }
     }
 
     /// Elevation where the balance is zero, m (the ELA itself, kept as a check of the profile).
