@@ -206,8 +206,10 @@ async function boot() {
     element('history-hint').textContent = 'The outlined cell; the dashed line is the year on the map.';
     element('hi-cell').textContent = `col ${cell.col}, row ${cell.row}`;
     const h = selectedHistory;
-    element('hi-exposed').textContent = h.exposure_year != null
-      ? String(h.exposure_year)
+    const iceAtEnd = h.ice_thickness_m[h.ice_thickness_m.length - 1] > 0;
+    element('hi-exposed').textContent = iceAtEnd && h.exposure_year != null
+      ? `${h.exposure_year}, under ice again by ${timelineInfo.last_year}`
+      : h.exposure_year != null ? String(h.exposure_year)
       : (h.covered_at_start ? `still under ice in ${timelineInfo.last_year}` : 'ice-free at the start');
     historyChart.setData(h.years, h.ice_thickness_m);
     historyChart.setMarker(timeBar.year());

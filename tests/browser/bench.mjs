@@ -64,6 +64,68 @@ try {
       same_end_area: Math.abs(native.ice_area_km2_end - line.ice_area_km2_end) < 1e-3,
     }));
   }
+  // Slider scrub: the page's draw path (engine render into wasm memory, a view, one
+  // putImageData) for 100 random years of a recorded 200-year run on the large valley.
+  const scrub = await page.evaluate(async ({ scenario }) => {
+    const wasm = await import('/pkg/forefield_wasm.js');
+    const memory = (await wasm.default()).memory;
+    const fetchBytes = async (name) => new Uint8Array(await (await fetch(`/bench-grids/${name}`)).arrayBuffer());
+    const surface = await fetchBytes('valley_dem.tif');
+    const ice = await fetchBytes('valley_ice_thickness.tif');
+    const recorder = new wasm.RunRecorder(scenario, surface, 'valley_dem.tif', ice, 'valley_ice_thickness.tif');
+    while (recorder.stepYear() !== null) { /* all years */ }
+    const bytes = recorder.finish();
+    recorder.free();
+    const workspace = new wasm.Workspace();
+    const terrain = workspace.loadTerrain(surface, 'valley_dem.tif');
+    const timeline = workspace.loadTimeline(bytes);
+    const canvas = document.createElement('canvas');
+    canvas.width = terrain.n_cols;
+    canvas.height = terrain.n_rows;
+    const context = canvas.getContext('2d');
+    // A fixed linear congruential sequence, so every bench run draws the same years.
+    let state = 12345;
+    const span = timeline.last_year - timeline.start_year + 1;
+    const years = Array.from({ length: 100 }, () => {
+      state = (Math.imul(state, 1103515245) + 12345) >>> 0;
+      return timeline.start_year + (state % span);
+    });
+    const result = {};
+    for (const layer of ['ice_thickness', 'exposure_year']) {
+      // One untimed draw first, as the page has always drawn a layer once before a scrub.
+      workspace.renderLayer(layer, timeline.last_year);
+      const ms = [];
+      const renderMs = [];
+      for (const year of years) {
+        const started = performance.now();
+        workspace.renderLayer(layer, year);
+        renderMs.push(performance.now() - started);
+        const pixels = new Uint8ClampedArray(memory.buffer, workspace.imagePtr(), workspace.imageLen());
+        context.putImageData(new ImageData(pixels, terrain.n_cols, terrain.n_rows), 0, 0);
+        ms.push(performance.now() - started);
+      }
+      ms.sort((a, b) => a - b);
+      renderMs.sort((a, b) => a - b);
+      result[layer] = { median: ms[50], worst: ms[99], engineMedian: renderMs[50] };
+    }
+    workspace.free();
+    return { cells: terrain.n_cols * terrain.n_rows, timeline, result };
+  }, { scenario: SCENARIO_JSON });
+  console.log(JSON.stringify({
+    bench: 'slider_scrub',
+    side: 'wasm',
+    cells: scrub.cells,
+    years: scrub.timeline.last_year - scrub.timeline.start_year,
+    draws: 100,
+    ice_thickness_ms_median: Number(scrub.result.ice_thickness.median.toFixed(2)),
+    ice_thickness_ms_worst: Number(scrub.result.ice_thickness.worst.toFixed(2)),
+    ice_thickness_engine_ms_median: Number(scrub.result.ice_thickness.engineMedian.toFixed(2)),
+    exposure_year_ms_median: Number(scrub.result.exposure_year.median.toFixed(2)),
+    exposure_year_ms_worst: Number(scrub.result.exposure_year.worst.toFixed(2)),
+    exposure_year_engine_ms_median: Number(scrub.result.exposure_year.engineMedian.toFixed(2)),
+    timeline_keyframe_interval_years: scrub.timeline.keyframe_interval,
+    timeline_mib: Number((scrub.timeline.memory_bytes / 2 ** 20).toFixed(2)),
+  }));
 } finally {
   await browser.close();
 }

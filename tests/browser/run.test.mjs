@@ -95,7 +95,9 @@ describe('a run of the sample scenario', () => {
       for (let row = 20; row < nRows - 20; row += 7) {
         for (let col = 20; col < nCols - 20; col += 7) {
           const h = window.forefield.cellHistory(col, row);
-          if (h.exposure_year != null && h.exposure_year > 2035 && h.ice_thickness_m[0] > 5) return { col, row };
+          const last = h.ice_thickness_m.length - 1;
+          if (h.exposure_year != null && h.exposure_year > 2035 && h.ice_thickness_m[0] > 5
+            && h.ice_thickness_m[last] === 0) return { col, row };
         }
       }
       return null;

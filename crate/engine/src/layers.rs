@@ -93,75 +93,79 @@ pub struct LayerLegend {
     pub note: String,
 }
 
-/// Draws timeline layers; owns the per-cell shading and scratch so a draw allocates nothing
-/// after the first.
+/// Draws timeline layers; owns the per-cell shading so a draw allocates nothing after the
+/// first. A draw copies the pre-shaded ground and recolours only the cells the layer
+/// describes, with integer shading, so scrubbing a 1M-cell grid stays within a frame.
 #[derive(Clone, Debug)]
 pub struct LayerRenderer {
-    /// Hillshade brightness factor per cell, 0 marks nodata.
-    light: Vec<f32>,
-    thickness_m: Vec<f32>,
-    exposed: Vec<i32>,
+    /// Hillshade brightness per cell in 1/256, 0 marks nodata.
+    light: Vec<u16>,
+    /// Ground grey, shaded, as RGBA bytes of the whole grid.
+    ground_rgba: Vec<u8>,
 }
 
 impl LayerRenderer {
     /// `hillshade` in [0, 1] (NaN where unknown); `nodata` cells stay transparent.
     pub fn new(hillshade: &[f32], nodata: &[bool]) -> LayerRenderer {
-        let light = hillshade
+        let light: Vec<u16> = hillshade
             .iter()
             .zip(nodata)
             .map(|(&s, &missing)| {
                 if missing {
-                    0.0
+                    0
                 } else {
                     let s = if s.is_finite() {
                         s.clamp(0.0, 1.0)
                     } else {
                         1.0
                     };
-                    SHADE_FLOOR + (1.0 - SHADE_FLOOR) * s
+                    ((SHADE_FLOOR + (1.0 - SHADE_FLOOR) * s) * 256.0).round() as u16
                 }
             })
             .collect();
-        LayerRenderer {
-            light,
-            thickness_m: Vec::new(),
-            exposed: Vec::new(),
+        let mut ground_rgba = vec![0; 4 * light.len()];
+        for (idx, &l) in light.iter().enumerate() {
+            put(&mut ground_rgba, idx, GROUND_GREY, l);
         }
+        LayerRenderer { light, ground_rgba }
     }
 
     /// Fills `rgba` (4 bytes per cell) with `kind` at the end of `year`.
     pub fn render(&mut self, timeline: &Timeline, kind: LayerKind, year: i32, rgba: &mut Vec<u8>) {
-        let n = timeline.n_cells().min(self.light.len());
-        rgba.resize(4 * self.light.len(), 0);
+        if timeline.n_cells() != self.light.len() {
+            // A timeline of another grid: draw the ground only rather than misplace cells.
+            rgba.clear();
+            rgba.extend_from_slice(&self.ground_rgba);
+            return;
+        }
+        rgba.clear();
+        rgba.extend_from_slice(&self.ground_rgba);
+        let light = &self.light;
         match kind {
             LayerKind::IceThickness => {
-                timeline.fill_ice_thickness(year, &mut self.thickness_m);
-                let max = ice_scale_m(timeline);
                 let lut = lut(ICE_RAMP);
-                let to_index = 255.0 / max;
-                for idx in 0..n {
-                    let h = self.thickness_m[idx];
-                    let colour = if h > 0.0 {
-                        lut[((h * to_index) as usize).min(255)]
-                    } else {
-                        GROUND_GREY
-                    };
-                    put(rgba, idx, colour, self.light[idx]);
-                }
+                let to_index = 255.0 / ice_scale_m(timeline);
+                timeline.for_each_ice_cell(year, |idx, h| {
+                    put(
+                        rgba,
+                        idx,
+                        lut[((h * to_index) as usize).min(255)],
+                        light[idx],
+                    );
+                });
             }
             LayerKind::ExposureYear => {
-                timeline.fill_exposure(year, &mut self.exposed);
                 let lut = lut(EXPOSURE_RAMP);
                 let first = timeline.start_year();
                 let span = (timeline.last_year() - first).max(1) as f32;
-                for idx in 0..n {
-                    let colour = match self.exposed[idx] {
+                timeline.for_each_glaciated_cell(year, |idx, state| {
+                    let colour = match state {
                         COVERED => ICE_FLAT,
                         NEVER_COVERED => GROUND_GREY,
                         y => lut[(((y - first) as f32 / span * 255.0) as usize).min(255)],
                     };
-                    put(rgba, idx, colour, self.light[idx]);
-                }
+                    put(rgba, idx, colour, light[idx]);
+                });
             }
         }
     }
@@ -184,17 +188,19 @@ fn lut(ramp: ColorRamp) -> [[u8; 3]; 256] {
     table
 }
 
+/// Writes `colour` shaded by `light` (1/256 units, 0 = nodata, transparent) at cell `idx`.
 #[inline]
-fn put(rgba: &mut [u8], idx: usize, colour: [u8; 3], light: f32) {
-    let pixel = &mut rgba[4 * idx..4 * idx + 4];
-    if light == 0.0 {
-        pixel.copy_from_slice(&[0, 0, 0, 0]);
+fn put(rgba: &mut [u8], idx: usize, colour: [u8; 3], light: u16) {
+    let pixel: &mut [u8; 4] = match rgba.get_mut(4 * idx..4 * idx + 4) {
+        Some(slice) => slice.try_into().expect("four bytes"),
+        None => return,
+    };
+    if light == 0 {
+        *pixel = [0, 0, 0, 0];
         return;
     }
-    pixel[0] = (f32::from(colour[0]) * light) as u8;
-    pixel[1] = (f32::from(colour[1]) * light) as u8;
-    pixel[2] = (f32::from(colour[2]) * light) as u8;
-    pixel[3] = 255;
+    let shade = |c: u8| ((u32::from(c) * u32::from(light)) >> 8).min(255) as u8;
+    *pixel = [shade(colour[0]), shade(colour[1]), shade(colour[2]), 255];
 }
 
 fn ramp_stops(ramp: ColorRamp, min: f64, max: f64) -> Vec<LegendStop> {
@@ -310,6 +316,7 @@ mod tests {
         recorder.record_year(2001, &after);
         let timeline = recorder.finish(&after);
         let mut renderer = LayerRenderer::new(&[1.0; 3], &[false; 3]);
+        // Full light is 256/256: colours come out exactly as the ramp gives them.
         let mut rgba = Vec::new();
         renderer.render(&timeline, LayerKind::IceThickness, 2000, &mut rgba);
         assert_eq!(&rgba[..3], &ICE_RAMP.at(1.0)[..]);

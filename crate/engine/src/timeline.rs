@@ -117,6 +117,24 @@ impl Frame {
     }
 }
 
+/// Smallest box (first col, first row, end col, end row) holding both frames' boxes.
+fn union_box(a: &Frame, b: &Frame) -> (usize, usize, usize, usize) {
+    let boxes = [a, b].map(|f| {
+        (
+            f.col0 as usize,
+            f.row0 as usize,
+            (f.col0 + f.width) as usize,
+            (f.row0 + f.height) as usize,
+        )
+    });
+    let present: Vec<_> = boxes.iter().filter(|b| b.2 > b.0 && b.3 > b.1).collect();
+    match present.as_slice() {
+        [] => (0, 0, 0, 0),
+        [x] => **x,
+        [x, y, ..] => (x.0.min(y.0), x.1.min(y.1), x.2.max(y.2), x.3.max(y.3)),
+    }
+}
+
 fn quantise(h: f32) -> u16 {
     if h.is_finite() && h > 0.0 {
         (h / THICKNESS_STEP_M).round().min(f32::from(u16::MAX)) as u16
@@ -140,6 +158,17 @@ pub struct Timeline {
     first_toggle: Vec<u16>,
     /// Second and later toggles, sorted by cell then year: (cell index, years since start).
     later_toggles: Vec<(u32, u16)>,
+    /// Largest stored thickness (quantised), kept so a draw need not scan the frames.
+    max_thickness_q: u16,
+}
+
+fn max_q(frames: &[Frame]) -> u16 {
+    frames
+        .iter()
+        .flat_map(|f| f.thickness_q.iter())
+        .copied()
+        .max()
+        .unwrap_or(0)
 }
 
 /// Records a run year by year into a [`Timeline`].
@@ -190,6 +219,7 @@ impl TimelineRecorder {
                 flags,
                 first_toggle: vec![NO_TOGGLE; n_cells],
                 later_toggles: Vec::new(),
+                max_thickness_q: 0,
             },
             end_year: start_year + n_years as i32,
             covered_now,
@@ -236,6 +266,7 @@ impl TimelineRecorder {
         }
         // Pushed in year order per cell, but cells interleave across years.
         timeline.later_toggles.sort_unstable();
+        timeline.max_thickness_q = max_q(&timeline.frames);
         self.timeline
     }
 
@@ -288,12 +319,7 @@ impl Timeline {
 
     /// Largest stored thickness over all keyframes, m.
     pub fn max_thickness_m(&self) -> f32 {
-        self.frames
-            .iter()
-            .flat_map(|f| f.thickness_q.iter())
-            .copied()
-            .max()
-            .map_or(0.0, |q| f32::from(q) * THICKNESS_STEP_M)
+        f32::from(self.max_thickness_q) * THICKNESS_STEP_M
     }
 
     fn clamp_year(&self, year: i32) -> i32 {
@@ -423,6 +449,68 @@ impl Timeline {
         }
     }
 
+    /// Calls `visit(cell index, thickness m)` for every cell under ice at the end of `year`,
+    /// with the thickness of [`Timeline::ice_thickness_at`]. Works through the keyframes' ice
+    /// box, then checks only the toggle years of cells outside it (ice that came and went
+    /// between two keyframes), so a late year with little ice is cheap: the map's draw path.
+    #[inline]
+    pub fn for_each_ice_cell(&self, year: i32, mut visit: impl FnMut(usize, f32)) {
+        let (a, b, w) = self.bracket(year);
+        let offset = (self.clamp_year(year) - self.start_year) as u16;
+        let (c0, r0, c1, r1) = union_box(a, b);
+        let (wa, wb) = ((1.0 - w) * THICKNESS_STEP_M, w * THICKNESS_STEP_M);
+        for row in r0..r1 {
+            for col in c0..c1 {
+                let idx = row * self.n_cols + col;
+                if self.flags[idx] & FLAG_COVERED_AT_START == 0
+                    && self.first_toggle[idx] == NO_TOGGLE
+                {
+                    continue;
+                }
+                if !self.cover_at_offset(idx, offset).0 {
+                    continue;
+                }
+                let h = f32::from(a.thickness_q(col, row)) * wa
+                    + f32::from(b.thickness_q(col, row)) * wb;
+                visit(idx, h.max(ICE_COVER_THRESHOLD_M));
+            }
+        }
+        // Outside the box only cells whose cover changed can be under ice, at the threshold.
+        for idx in 0..self.n_cells() {
+            if self.first_toggle[idx] == NO_TOGGLE {
+                continue;
+            }
+            let (row, col) = (idx / self.n_cols, idx % self.n_cols);
+            if (r0..r1).contains(&row) && (c0..c1).contains(&col) {
+                continue;
+            }
+            if self.cover_at_offset(idx, offset).0 {
+                visit(idx, ICE_COVER_THRESHOLD_M);
+            }
+        }
+    }
+
+    /// Calls `visit(cell index, state)` for every cell that was ever under ice in the run,
+    /// with the state at the end of `year` as in [`Timeline::fill_exposure`]; the other cells
+    /// are ice-free from the start throughout.
+    #[inline]
+    pub fn for_each_glaciated_cell(&self, year: i32, mut visit: impl FnMut(usize, i32)) {
+        let offset = (self.clamp_year(year) - self.start_year) as u16;
+        for (idx, (&flags, &first)) in self.flags.iter().zip(&self.first_toggle).enumerate() {
+            if flags & FLAG_COVERED_AT_START == 0 && first == NO_TOGGLE {
+                continue;
+            }
+            visit(
+                idx,
+                match self.cover_at_offset(idx, offset) {
+                    (true, _) => COVERED,
+                    (false, Some(y)) => y,
+                    (false, None) => NEVER_COVERED,
+                },
+            );
+        }
+    }
+
     /// The store as one byte string (little-endian), for handing between threads.
     pub fn to_bytes(&self) -> Vec<u8> {
         let mut out = Vec::with_capacity(self.memory_bytes() + 64);
@@ -518,6 +606,7 @@ impl Timeline {
             later_toggles.push((cell, u16::from_le_bytes([raw[0], raw[1]])));
         }
         Ok(Timeline {
+            max_thickness_q: max_q(&frames),
             n_cols,
             n_rows,
             start_year,
@@ -649,6 +738,16 @@ mod tests {
         for (idx, &h) in grid.iter().enumerate() {
             assert_eq!(h, timeline.ice_thickness_at(idx, 2002), "cell {idx}");
         }
+        let mut visited = vec![0.0_f32; grid.len()];
+        timeline.for_each_ice_cell(2002, |idx, h| visited[idx] = h);
+        for (idx, (&v, &h)) in visited.iter().zip(&grid).enumerate() {
+            assert!((v - h).abs() < 1e-4, "cell {idx}: visited {v}, filled {h}");
+        }
+        let mut exposure = Vec::new();
+        timeline.fill_exposure(2003, &mut exposure);
+        let mut visited = vec![NEVER_COVERED; exposure.len()];
+        timeline.for_each_glaciated_cell(2003, |idx, state| visited[idx] = state);
+        assert_eq!(visited, exposure);
     }
 
     #[test]
