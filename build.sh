@@ -10,6 +10,8 @@ cd "$(dirname "$0")"
 ROOT="$(pwd)"
 WASM_TARGET=wasm32-unknown-unknown
 PORT="${PORT:-8765}"
+# Cargo puts its outputs here; honour an override so a checkout can share a build cache.
+TARGET_DIR="${CARGO_TARGET_DIR:-target}"
 
 say() { printf '\n==> %s\n' "$*"; }
 
@@ -57,7 +59,7 @@ build_wasm() {
         cargo build --release --target "$WASM_TARGET" -p forefield-wasm
     say "generating www/pkg with wasm-bindgen"
     wasm-bindgen --target web --no-typescript --out-dir www/pkg \
-        "target/$WASM_TARGET/release/forefield_wasm.wasm"
+        "$TARGET_DIR/$WASM_TARGET/release/forefield_wasm.wasm"
     rm -rf www/sample-grids
     mkdir -p www/sample-grids
     cp sample-grids/*.tif sample-grids/*.json www/sample-grids/ 2>/dev/null || cp sample-grids/*.tif www/sample-grids/
@@ -71,14 +73,14 @@ build_cli() {
 # Starts the static server in the background and waits until it answers.
 start_server() {
     local port="$1"
-    target/release/forefield serve --dir www --port "$port" >"target/serve-$port.log" 2>&1 &
+    "$TARGET_DIR"/release/forefield serve --dir www --port "$port" >"$TARGET_DIR/serve-$port.log" 2>&1 &
     SERVER_PID=$!
     for _ in $(seq 1 50); do
         if (exec 3<>"/dev/tcp/127.0.0.1/$port") 2>/dev/null; then return 0; fi
         sleep 0.1
     done
     echo "server did not start; log:" >&2
-    cat "target/serve-$port.log" >&2
+    cat "$TARGET_DIR/serve-$port.log" >&2
     return 1
 }
 
@@ -91,7 +93,7 @@ cmd_serve() {
     build_wasm
     build_cli
     say "open http://127.0.0.1:$PORT/"
-    exec target/release/forefield serve --dir www --port "$PORT"
+    exec "$TARGET_DIR"/release/forefield serve --dir www --port "$PORT"
 }
 
 cmd_test() {
@@ -124,7 +126,7 @@ cmd_test() {
 cmd_sample() {
     build_cli
     say "writing the demo valley to sample-grids/"
-    target/release/forefield sample --out sample-grids
+    "$TARGET_DIR"/release/forefield sample --out sample-grids
 }
 
 cmd_bench() {
@@ -134,11 +136,11 @@ cmd_bench() {
     ensure_node_deps
     if [ ! -f sample-grids/large/valley_dem.tif ]; then
         say "generating the large benchmark valley (1024 x 1024) in sample-grids/large/"
-        target/release/forefield sample --size 1024 --out sample-grids/large
+        "$TARGET_DIR"/release/forefield sample --size 1024 --out sample-grids/large
     fi
     say "native benchmark"
     local native
-    native="$(target/release/forefield bench --grids sample-grids/large)"
+    native="$("$TARGET_DIR"/release/forefield bench --grids sample-grids/large)"
     echo "$native"
     local port
     port="$(free_port)"
