@@ -8,15 +8,16 @@
 //! negative exponential is a Gaussian whose variance is 2 a^2 s with s ~ Gamma(3/2, 1) (from
 //! the Laplace-transform identity exp(-sqrt(b)) = int t^(-3/2) exp(-1/(4t)) exp(-b t) dt /
 //! (2 sqrt(pi)), Abramowitz & Stegun 29.3.82). The mixing integral is taken by the trapezoid
-//! rule in the logarithm of the gamma variable (step [`QUADRATURE_STEP`]), which converges
-//! geometrically for such smooth integrands (Trefethen & Weideman 2014, SIAM Rev. 56:385).
+//! rule in the logarithm of the gamma variable (steps [`QUADRATURE_STEP`] and
+//! [`QUADRATURE_STEP_2DT`]), which converges geometrically for such smooth integrands
+//! (Trefethen & Weideman 2014, SIAM Rev. 56:385).
 //! Each Gaussian component is applied as a separable pair of 1-D filters with cell-integrated
 //! taps on a pyramid of block-aggregated grids: a component goes to the coarsest level where
 //! it still spans at least [`MIN_SIGMA_CELLS`] cells, so every component costs about the same
 //! number of operations per coarse cell whatever its width, and wide components are nearly
-//! free. Sums are moved down the pyramid by bilinear interpolation; the variance that
-//! aggregation and interpolation add is taken off each component (common practice, no
-//! source). The error against a direct convolution is measured in the reference checks.
+//! free; components that need no filter on their level share one scaled copy. Sums are
+//! moved down the pyramid by bilinear interpolation; the variance that aggregation and
+//! interpolation add is taken off each component (common practice, no source). The error against a direct convolution is measured in the reference checks.
 
 use rand::Rng;
 use serde::{Deserialize, Serialize};
@@ -26,6 +27,11 @@ use crate::pft::{check_range, VegetationError};
 /// Step of the trapezoid rule in ln(gamma variable). 0.5 keeps the summed Gaussians within
 /// 0.2 % of the closed-form density out to the 99.9th percentile distance (reference checks).
 pub const QUADRATURE_STEP: f64 = 0.5;
+
+/// Step for the 2Dt kernel with shape p <= 1; it shrinks as 1/sqrt(p) above, with the width
+/// of the Gamma(p) density in ln x. Its mixing density is smooth enough that this keeps the
+/// 0.2 % of [`QUADRATURE_STEP`] with fewer components (reference checks, p = 1 to 3).
+pub const QUADRATURE_STEP_2DT: f64 = 0.8;
 
 /// Components whose mixing weight density falls below this fraction of its peak are dropped
 /// and the rest renormalised; the mass lost this way is far below one part in 10^5.
@@ -144,15 +150,18 @@ impl Kernel {
         match self.family {
             KernelFamily::Gaussian => vec![(1.0, s)],
             // sigma^2 = 2 a^2 x, x ~ Gamma(3/2, 1).
-            KernelFamily::NegativeExponential => gamma_nodes(1.5)
+            KernelFamily::NegativeExponential => gamma_nodes(1.5, QUADRATURE_STEP)
                 .into_iter()
                 .map(|(w, x)| (w, (2.0 * s * s * x).sqrt()))
                 .collect(),
             // 1/(2 sigma^2) = x/u, x ~ Gamma(p, 1).
-            KernelFamily::TwoDt => gamma_nodes(self.shape_p)
-                .into_iter()
-                .map(|(w, x)| (w, (s * s / (2.0 * x)).sqrt()))
-                .collect(),
+            KernelFamily::TwoDt => gamma_nodes(
+                self.shape_p,
+                QUADRATURE_STEP_2DT / self.shape_p.max(1.0).sqrt(),
+            )
+            .into_iter()
+            .map(|(w, x)| (w, (s * s / (2.0 * x)).sqrt()))
+            .collect(),
         }
     }
 
@@ -208,7 +217,7 @@ pub fn ln_gamma(x: f64) -> f64 {
 }
 
 /// Nodes and weights of the trapezoid rule in y = ln x for x ~ Gamma(shape, 1).
-fn gamma_nodes(shape: f64) -> Vec<(f64, f64)> {
+fn gamma_nodes(shape: f64, step: f64) -> Vec<(f64, f64)> {
     let log_density = |y: f64| shape * y - y.exp();
     let y_mode = shape.ln();
     let peak = log_density(y_mode);
@@ -216,7 +225,7 @@ fn gamma_nodes(shape: f64) -> Vec<(f64, f64)> {
     let mut nodes = Vec::new();
     let mut j = 0i32;
     loop {
-        let y = y_mode - f64::from(j) * QUADRATURE_STEP;
+        let y = y_mode - f64::from(j) * step;
         if log_density(y) < floor {
             break;
         }
@@ -225,7 +234,7 @@ fn gamma_nodes(shape: f64) -> Vec<(f64, f64)> {
     }
     j = 1;
     loop {
-        let y = y_mode + f64::from(j) * QUADRATURE_STEP;
+        let y = y_mode + f64::from(j) * step;
         if log_density(y) < floor {
             break;
         }
@@ -335,6 +344,9 @@ pub struct DispersalOperator {
     n_levels: usize,
     /// Weight of components too narrow to leave their fine cell.
     identity_weight: f32,
+    /// Per level, the summed weight of components that need no filter there (their variance
+    /// is all in the transfers): one scaled copy instead of one per component.
+    level_identity_weight: Vec<f32>,
     components: Vec<Component>,
 }
 
@@ -354,6 +366,7 @@ impl DispersalOperator {
         let shapes = pyramid_shapes(n_cols, n_rows, base_factor);
         let mut components = Vec::new();
         let mut identity_weight = 0.0f64;
+        let mut level_identity_weight = vec![0.0f64; shapes.len()];
         for (weight, sigma_m) in kernel.gaussian_mixture() {
             let sigma_cells = sigma_m / cell_size_m;
             let mut level = 0;
@@ -373,18 +386,32 @@ impl DispersalOperator {
                 / (factor * factor)
                 - 1.0 / 12.0;
             let shape = &shapes[level];
-            let taps = if level_variance <= 1e-4 {
-                vec![1.0]
-            } else {
-                gaussian_taps(level_variance.sqrt(), shape.n_cols.max(shape.n_rows))
-            };
+            if level_variance <= 1e-4 {
+                level_identity_weight[level] += weight;
+                continue;
+            }
             components.push(Component {
                 level,
                 weight: weight as f32,
-                taps,
+                taps: gaussian_taps(level_variance.sqrt(), shape.n_cols.max(shape.n_rows)),
             });
         }
-        let n_levels = components.iter().map(|c| c.level + 1).max().unwrap_or(1);
+        let n_levels = components
+            .iter()
+            .map(|c| c.level + 1)
+            .chain(
+                level_identity_weight
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, &w)| w > 0.0)
+                    .map(|(level, _)| level + 1),
+            )
+            .max()
+            .unwrap_or(1);
+        let level_identity_weight = level_identity_weight[..n_levels]
+            .iter()
+            .map(|&w| w as f32)
+            .collect();
         DispersalOperator {
             n_cols,
             n_rows,
@@ -392,11 +419,12 @@ impl DispersalOperator {
             boundary,
             n_levels,
             identity_weight: identity_weight as f32,
+            level_identity_weight,
             components,
         }
     }
 
-    /// Number of Gaussian components and pyramid levels used (cost measures).
+    /// Number of filtered Gaussian components and pyramid levels used (cost measures).
     pub fn cost(&self) -> (usize, usize) {
         (self.components.len(), self.n_levels)
     }
@@ -447,9 +475,13 @@ impl DispersalOperator {
             );
         }
         // Each component filtered on its level.
-        let total = shapes[self.n_levels - 1].offset
-            + shapes[self.n_levels - 1].n_cols * shapes[self.n_levels - 1].n_rows;
-        accum[..total].fill(0.0);
+        for (j, &w) in self.level_identity_weight.iter().enumerate() {
+            let shape = &shapes[j];
+            let range = shape.offset..shape.offset + shape.n_cols * shape.n_rows;
+            for (a, &s) in accum[range.clone()].iter_mut().zip(&sums[range]) {
+                *a = w * s;
+            }
+        }
         for component in &self.components {
             let shape = &shapes[component.level];
             let range = shape.offset..shape.offset + shape.n_cols * shape.n_rows;
@@ -468,7 +500,7 @@ impl DispersalOperator {
         // Sums back down the pyramid and onto the fine grid.
         for j in (1..self.n_levels).rev() {
             let (lower, upper) = accum.split_at_mut(shapes[j].offset);
-            interpolate_add(
+            interpolate::<false>(
                 &upper[..shapes[j].n_cols * shapes[j].n_rows],
                 shapes[j].n_cols,
                 shapes[j].n_rows,
@@ -476,14 +508,14 @@ impl DispersalOperator {
                 shapes[j - 1].n_cols,
                 shapes[j - 1].n_rows,
                 2,
+                line,
             );
         }
         let base = &shapes[0];
         if base.factor == 1 {
             rain.copy_from_slice(&accum[..n]);
         } else {
-            rain.fill(0.0);
-            interpolate_add(
+            interpolate::<true>(
                 &accum[..base.n_cols * base.n_rows],
                 base.n_cols,
                 base.n_rows,
@@ -491,6 +523,7 @@ impl DispersalOperator {
                 self.n_cols,
                 self.n_rows,
                 base.factor,
+                line,
             );
         }
         if self.identity_weight > 0.0 {
@@ -625,9 +658,10 @@ fn filter(
     }
 }
 
-/// Adds the bilinear interpolation of coarse sums, spread over `factor x factor` fine cells,
-/// to `fine`.
-fn interpolate_add(
+/// Adds (or with `ASSIGN` writes) the bilinear interpolation of coarse sums, spread over
+/// `factor x factor` fine cells, to `fine`. `row_buf` holds at least `c_cols` values.
+#[allow(clippy::too_many_arguments)]
+fn interpolate<const ASSIGN: bool>(
     coarse: &[f32],
     c_cols: usize,
     c_rows: usize,
@@ -635,11 +669,15 @@ fn interpolate_add(
     f_cols: usize,
     f_rows: usize,
     factor: usize,
+    row_buf: &mut [f32],
 ) {
     // An axis of one cell (a strip) is not aggregated, so it spreads over one cell.
     let along = |c: usize, f: usize| if c == f { 1 } else { factor };
     let (factor_x, factor_y) = (along(c_cols, f_cols), along(c_rows, f_rows));
     let per_cell = 1.0 / (factor_x * factor_y) as f32;
+    // Fine cell i lies at coarse position x = (i + 0.5) / factor - 0.5, between coarse cells
+    // lo and lo + 1 with weight x - lo on lo + 1; outside the first and last centres the
+    // edge value holds.
     let position = |i: usize, n: usize, factor: usize| -> (usize, usize, f32) {
         let x = (i as f32 + 0.5) / factor as f32 - 0.5;
         if x <= 0.0 {
@@ -651,16 +689,39 @@ fn interpolate_add(
         }
         (lo, lo + 1, x - lo as f32)
     };
+    let blended = &mut row_buf[..c_cols];
     for row in 0..f_rows {
         let (r0, r1, wy) = position(row, c_rows, factor_y);
         let top = &coarse[r0 * c_cols..(r0 + 1) * c_cols];
         let bottom = &coarse[r1 * c_cols..(r1 + 1) * c_cols];
+        for ((b, &t), &u) in blended.iter_mut().zip(top).zip(bottom) {
+            *b = per_cell * (t + wy * (u - t));
+        }
         let out = &mut fine[row * f_cols..(row + 1) * f_cols];
-        for (col, o) in out.iter_mut().enumerate() {
-            let (c0, c1, wx) = position(col, c_cols, factor_x);
-            let upper = top[c0] + wx * (top[c1] - top[c0]);
-            let lower = bottom[c0] + wx * (bottom[c1] - bottom[c0]);
-            *o += per_cell * (upper + wy * (lower - upper));
+        if factor_x == 1 {
+            for (o, &b) in out.iter_mut().zip(blended.iter()) {
+                *o = if ASSIGN { b } else { *o + b };
+            }
+            continue;
+        }
+        // Whole coarse cells: the `factor_x` fine cells of coarse cell k blend k with its
+        // left neighbour in their left half and with its right neighbour in the right half.
+        let half = factor_x / 2;
+        let inv = 1.0 / factor_x as f32;
+        for (k, block) in out.chunks_mut(factor_x).enumerate() {
+            let mid = blended[k];
+            let left = blended[k.saturating_sub(1)];
+            let right = blended[(k + 1).min(c_cols - 1)];
+            for (j, o) in block.iter_mut().enumerate() {
+                let v = if j < half {
+                    let w = 0.5 + (j as f32 + 0.5) * inv;
+                    left + w * (mid - left)
+                } else {
+                    let w = (j as f32 + 0.5) * inv - 0.5;
+                    mid + w * (right - mid)
+                };
+                *o = if ASSIGN { v } else { *o + v };
+            }
         }
     }
 }

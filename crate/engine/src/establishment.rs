@@ -97,20 +97,31 @@ impl From<&PlantType> for TypeRates {
 }
 
 /// Site suitability in [0, 1]: zero below the temperature or soil minimum or above the
-/// slope limit, ramping to 1 just above the minima.
+/// slope limit, ramping to 1 just above the minima. Branch-free, with comparisons rather
+/// than `f32::min` (which on wasm compiles to NaN-propagating code that does not
+/// vectorise), since it runs once per cell, type and year.
 #[inline]
 pub fn suitability(rates: &TypeRates, temp_c: f32, soil: f32, slope_deg: f32) -> f32 {
-    if temp_c < rates.min_temp_c || soil < rates.min_soil || slope_deg > rates.max_slope_deg {
-        return 0.0;
+    let by_temp = smaller(
+        0.3 + 0.7 * (temp_c - rates.min_temp_c) / TEMPERATURE_RAMP_K,
+        1.0,
+    );
+    let by_soil = smaller(0.3 + 0.7 * (soil - rates.min_soil) / SOIL_RAMP, 1.0);
+    // `&` rather than `&&`: no branches.
+    let ok = (temp_c >= rates.min_temp_c)
+        & (soil >= rates.min_soil)
+        & (slope_deg <= rates.max_slope_deg);
+    if ok {
+        by_temp * by_soil
+    } else {
+        0.0
     }
-    let by_temp = (0.3 + 0.7 * (temp_c - rates.min_temp_c) / TEMPERATURE_RAMP_K).min(1.0);
-    let by_soil = (0.3 + 0.7 * (soil - rates.min_soil) / SOIL_RAMP).min(1.0);
-    by_temp * by_soil
 }
 
 /// One year of one type in one cell. `canopy` is the cover of taller types already updated,
-/// `seeds` the seed rain, `uniform` a uniform number in (0, 1) for the establishment draw.
-/// Returns the new cover, at most the space the taller types leave.
+/// `seeds` the seed rain, `uniform` a uniform number in [0, 1) for the establishment draw.
+/// Returns the new cover, at most the space the taller types leave. Branch-free (selects
+/// only), so that a loop over cells vectorises.
 #[inline]
 pub fn update_cover(
     rates: &TypeRates,
@@ -120,25 +131,88 @@ pub fn update_cover(
     seeds: f32,
     uniform: f32,
 ) -> f32 {
-    let space = (1.0 - canopy).max(0.0);
+    let space = positive(1.0 - canopy);
     let light = 1.0 - (1.0 - rates.shade_tolerance) * canopy;
     let capacity = rates.max_cover * suitability;
-    let mut c = cover;
-    if c > 0.0 {
-        c += rates.growth_rate * light * c * (capacity - c) / rates.max_cover - rates.mortality * c;
-    }
-    let free = (space.min(capacity) - c).max(0.0);
+    let c = cover;
+    // Logistic growth and mortality; zero where the type is absent.
+    let grown =
+        c + rates.growth_rate * light * c * (capacity - c) / rates.max_cover - rates.mortality * c;
+    let free = positive(smaller(space, capacity) - grown);
     let expected_recruits = seeds * rates.establishment_per_seed * suitability * light * free;
-    if expected_recruits > 0.0 {
-        if c > 0.0 {
-            // Infill: further recruits add their cover, at most one recruit's worth a year
-            // so that cover grows by the logistic term, not by seed rain alone.
-            c += rates.recruit_cover * expected_recruits.min(1.0).min(free / rates.recruit_cover);
-        } else if uniform < 1.0 - (-expected_recruits).exp() {
-            c = rates.recruit_cover.min(free);
-        }
+    // Infill: further recruits add their cover, at most one recruit's worth a year so that
+    // cover grows by the logistic term, not by seed rain alone.
+    let infill = rates.recruit_cover
+        * smaller(
+            smaller(positive(expected_recruits), 1.0),
+            free / rates.recruit_cover,
+        );
+    // First establishment: at least one recruit, probability 1 - exp(-expected).
+    let first = if uniform < establishment_probability(expected_recruits) {
+        smaller(rates.recruit_cover, free)
+    } else {
+        0.0
+    };
+    let c = if c > 0.0 { grown + infill } else { first };
+    smaller(positive(c), space)
+}
+
+/// `a` if positive, else 0 (a comparison, not `f32::max`, so that it vectorises on wasm).
+#[inline]
+pub(crate) fn positive(a: f32) -> f32 {
+    if a > 0.0 {
+        a
+    } else {
+        0.0
     }
-    c.clamp(0.0, space)
+}
+
+/// The smaller of two numbers (a comparison, not `f32::min`).
+#[inline]
+pub(crate) fn smaller(a: f32, b: f32) -> f32 {
+    if a < b {
+        a
+    } else {
+        b
+    }
+}
+
+/// The larger of two numbers (a comparison, not `f32::max`).
+#[inline]
+pub(crate) fn larger(a: f32, b: f32) -> f32 {
+    if a > b {
+        a
+    } else {
+        b
+    }
+}
+
+/// 1 - exp(-lambda) for lambda >= 0 (0 for lambda <= 0), branch-free: a series for small
+/// lambda, where 1 - exp loses digits, and otherwise exp as a power of two times a degree-5
+/// polynomial of the fraction (Taylor coefficients of 2^f on [-0.5, 0.5]; relative error
+/// below 1e-5 in f32, common practice, no source). Vectorises where `f32::exp` would not.
+#[inline]
+pub fn establishment_probability(lambda: f32) -> f32 {
+    let lambda = positive(lambda);
+    let small = lambda * (1.0 - lambda * (0.5 - lambda * (1.0 / 6.0)));
+    // exp(-lambda) = 2^x with x = -lambda log2(e), clamped above underflow.
+    let x = -smaller(lambda, 80.0) * std::f32::consts::LOG2_E;
+    // Round x to the nearest integer by adding and removing 1.5 * 2^23; f in [-0.5, 0.5].
+    const MAGIC: f32 = 12_582_912.0;
+    let shifted = x + MAGIC;
+    let whole = shifted - MAGIC;
+    let f = x - whole;
+    let exponent = (shifted.to_bits() as i32).wrapping_sub(MAGIC.to_bits() as i32);
+    let scale = f32::from_bits(((exponent + 127) as u32) << 23);
+    let p = 1.0
+        + f * (std::f32::consts::LN_2
+            + f * (0.240_226_5 + f * (0.055_504_1 + f * (0.009_618_1 + f * 0.001_333_6))));
+    let large = 1.0 - p * scale;
+    if lambda < 1e-3 {
+        small
+    } else {
+        large
+    }
 }
 
 #[cfg(test)]
@@ -151,6 +225,20 @@ mod tests {
         assert_eq!(suitability(&rates, 6.6, 1.0, 5.0), 0.0);
         assert!(suitability(&rates, 6.8, 1.0, 5.0) > 0.0);
         assert_eq!(update_cover(&rates, 0.0, 0.0, 0.0, 1e9, 0.0), 0.0);
+    }
+
+    #[test]
+    fn establishment_probability_matches_one_minus_exp() {
+        for &lambda in &[
+            0.0f32, 1e-9, 1e-5, 9e-4, 1.1e-3, 0.01, 0.3, 1.0, 4.0, 20.0, 100.0,
+        ] {
+            let exact = -(-f64::from(lambda)).exp_m1();
+            let fast = f64::from(establishment_probability(lambda));
+            assert!(
+                (fast - exact).abs() <= 1e-5 * exact + 1e-7,
+                "{lambda}: {fast} vs {exact}"
+            );
+        }
     }
 
     #[test]

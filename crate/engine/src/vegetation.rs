@@ -6,8 +6,11 @@
 //! State is plain data ([`VegetationState`]: covers, ages, soil, stage as flat layers, one
 //! layer per type for covers and ages); [`VegetationModel`] owns the state, the per-cell
 //! site constants and every scratch buffer, so [`VegetationModel::step_year`] allocates
-//! nothing. Randomness (long-distance events and first establishment in a cell) comes from
-//! one PCG generator (O'Neill 2014) seeded from the scenario, drawn in a fixed order.
+//! nothing. Randomness is seeded from the scenario: long-distance events come from one PCG
+//! generator (O'Neill 2014) drawn in a fixed order, first establishment in a cell from a
+//! counter-based hash of seed, year, type and cell (Salmon et al. 2011), so that the cell
+//! loop carries no generator state. Cells are updated in blocks of [`BLOCK`] with every
+//! type passing over a block before the next, so the per-cell sums stay in cache.
 
 use rand::{Rng, SeedableRng};
 use rand_pcg::Pcg32;
@@ -17,7 +20,7 @@ use crate::dispersal::{
     uniform_open, validate_kernel, Boundary, DispersalOperator, DispersalScratch, Kernel,
 };
 use crate::disturbance::{Disturbance, DisturbanceKind, ScheduledDisturbance, SeedBankParams};
-use crate::establishment::{suitability, update_cover, GrowingSeasonParams, TypeRates};
+use crate::establishment::{larger, suitability, update_cover, GrowingSeasonParams, TypeRates};
 use crate::exposure::ICE_COVER_THRESHOLD_M;
 use crate::grid::GridGeometry;
 use crate::pft::{check_range, GrowthForm, PlantType, VegetationError, MAX_TYPES};
@@ -224,13 +227,35 @@ pub struct VegetationModel {
     types: Vec<TypeSetup>,
     /// Type indices, tallest first.
     order: Vec<usize>,
+    /// Soil temperature factor at each cell's base temperature (no anomaly).
+    soil_temp_factor: Vec<f32>,
+    /// Nodata cells (always stage ice, left out of the summary).
+    n_invalid: usize,
+    /// Seed from which each year's establishment draws are keyed.
+    establishment_key: u64,
     scratch: DispersalScratch,
     production: Vec<f32>,
     rain: Vec<f32>,
     row_production: Vec<f64>,
+    /// Per cell and year: [`CELL_OPEN`], [`CELL_FRESH`] or [`CELL_CLOSED`].
+    cell_kind: Vec<u8>,
+    /// Per-cell sums of one block over the types updated so far this year: all cover (the
+    /// canopy the next shorter type grows under), graminoid, woody and tree cover, oldest
+    /// tree age.
+    block_sums: [Vec<f32>; 5],
     rng: Pcg32,
     disturbances: Vec<ScheduledDisturbance>,
 }
+
+/// Cells per block of the yearly update.
+const BLOCK: usize = 1024;
+
+/// Ice-free ground that was ice-free last year too.
+const CELL_OPEN: u8 = 0;
+/// Ground the ice left this year: no plants, no soil yet, colonisable.
+const CELL_FRESH: u8 = 1;
+/// Under ice or nodata: nothing grows.
+const CELL_CLOSED: u8 = 2;
 
 impl VegetationModel {
     /// Builds the model and its initial state. `elevation_m` is the ground (bed) elevation
@@ -388,6 +413,11 @@ impl VegetationModel {
             }
         }
         let scratch = types[0].operator.scratch();
+        let soil_temp_factor = temp_base_c
+            .iter()
+            .map(|&t| params.soil.temperature_factor(t))
+            .collect();
+        let n_invalid = valid.iter().filter(|&&v| !v).count();
         let mut model = VegetationModel {
             n_cols,
             n_rows,
@@ -405,9 +435,14 @@ impl VegetationModel {
             types,
             order,
             scratch,
+            soil_temp_factor,
+            n_invalid,
+            establishment_key: seed ^ 0x9E37_79B9_7F4A_7C15,
             production: vec![0.0; n],
             rain: vec![0.0; n_types * n],
             row_production: vec![0.0; n_rows],
+            cell_kind: vec![CELL_CLOSED; n],
+            block_sums: std::array::from_fn(|_| vec![0.0; BLOCK]),
             rng: Pcg32::seed_from_u64(seed),
             disturbances: Vec::new(),
         };
@@ -541,68 +576,20 @@ impl VegetationModel {
             long_distance_events += self.disperse(t, year);
         }
         let anomaly = temperature_anomaly_c as f32;
-        let mut stage_cells = [0usize; N_STAGES];
+        self.classify_cells(year, ice_thickness_m, year_exposed);
+        self.develop_soil(anomaly);
+        // Cells in blocks small enough that the per-block sums stay in the first-level
+        // cache while every type passes over them, tallest first.
         let mut cover_sums = [0.0f64; MAX_TYPES];
-        let mut ice_free_cells = 0usize;
-        for i in 0..n {
-            if !self.valid[i] {
-                continue;
-            }
-            if ice_thickness_m[i] >= ICE_COVER_THRESHOLD_M || year_exposed[i] == year {
-                // Under ice, or just out of it: no plants and no soil (glacial scour).
-                for t in 0..self.types.len() {
-                    self.state.cover[t * n + i] = 0.0;
-                    self.state.age_a[t * n + i] = 0;
-                }
-                self.state.soil[i] = 0.0;
-                if ice_thickness_m[i] >= ICE_COVER_THRESHOLD_M {
-                    self.state.stage[i] = vegetation_code::ICE;
-                    stage_cells[usize::from(vegetation_code::ICE)] += 1;
-                    continue;
-                }
-            }
-            ice_free_cells += 1;
-            let temp = self.temp_base_c[i] + anomaly;
-            let mut fixer_cover = 0.0f32;
-            for (t, setup) in self.types.iter().enumerate() {
-                if setup.nitrogen_fixer {
-                    fixer_cover += self.state.cover[t * n + i];
-                }
-            }
-            let soil = develop(
-                self.state.soil[i],
-                self.soil_site_rate[i],
-                self.soil.temperature_factor(temp),
-                1.0 + self.fixer_boost * fixer_cover,
-            );
-            self.state.soil[i] = soil;
-            let mut canopy = 0.0f32;
-            for &t in &self.order {
-                let setup = &self.types[t];
-                let idx = t * n + i;
-                let cover = self.state.cover[idx];
-                let suit = suitability(&setup.rates, temp, soil, self.slope_deg[i]);
-                let seeds = self.rain[idx];
-                let uniform = if cover <= 0.0 && seeds > 0.0 && suit > 0.0 {
-                    uniform_open(&mut self.rng) as f32
-                } else {
-                    1.0
-                };
-                let mut c = update_cover(&setup.rates, cover, suit, canopy, seeds, uniform);
-                if c < EXTINCT_COVER {
-                    c = 0.0;
-                    self.state.age_a[idx] = 0;
-                } else {
-                    self.state.age_a[idx] = self.state.age_a[idx].saturating_add(1);
-                }
-                self.state.cover[idx] = c;
-                canopy += c;
-                cover_sums[t] += f64::from(c);
-            }
-            let code = stage(&self.cell_cover(i), &self.thresholds);
-            self.state.stage[i] = code;
-            stage_cells[usize::from(code)] += 1;
+        let mut stage_cells = [0usize; N_STAGES];
+        let mut start = 0;
+        while start < n {
+            let end = (start + BLOCK).min(n);
+            self.update_block(start..end, year, anomaly, &mut cover_sums, &mut stage_cells);
+            start = end;
         }
+        let ice_free_cells = n - stage_cells[usize::from(vegetation_code::ICE)] - self.n_invalid;
+        stage_cells[usize::from(vegetation_code::ICE)] -= self.n_invalid;
         let mut stage_area_km2 = [0.0; N_STAGES];
         for (area, &count) in stage_area_km2.iter_mut().zip(&stage_cells) {
             *area = count as f64 * self.cell_area_km2;
@@ -625,6 +612,138 @@ impl VegetationModel {
             mean_cover,
             n_types: self.types.len(),
             long_distance_events,
+        }
+    }
+
+    /// Sorts cells into open, freshly exposed and closed (ice or nodata) for this year.
+    fn classify_cells(&mut self, year: i32, ice_thickness_m: &[f32], year_exposed: &[i32]) {
+        for (((kind, &ice), &exposed), &valid) in self
+            .cell_kind
+            .iter_mut()
+            .zip(ice_thickness_m)
+            .zip(year_exposed)
+            .zip(&self.valid)
+        {
+            *kind = if !valid || ice >= ICE_COVER_THRESHOLD_M {
+                CELL_CLOSED
+            } else if exposed == year {
+                CELL_FRESH
+            } else {
+                CELL_OPEN
+            };
+        }
+    }
+
+    /// One year of soil development; ice and fresh ground start from nothing (glacial
+    /// scour). Nitrogen fixers act through last year's cover.
+    fn develop_soil(&mut self, anomaly_c: f32) {
+        let n = self.state.n_cells;
+        // The Q10 response factors into a per-cell part and one for the year's anomaly.
+        let year_factor = (self.soil.q10 as f32).powf(anomaly_c / 10.0);
+        let fixer = &mut self.production;
+        fixer.fill(0.0);
+        for (t, setup) in self.types.iter().enumerate() {
+            if setup.nitrogen_fixer {
+                for (f, &c) in fixer.iter_mut().zip(&self.state.cover[t * n..(t + 1) * n]) {
+                    *f += c;
+                }
+            }
+        }
+        let boost = self.fixer_boost;
+        for ((((soil, &kind), &site), &temp_factor), &fixer) in self
+            .state
+            .soil
+            .iter_mut()
+            .zip(&self.cell_kind)
+            .zip(&self.soil_site_rate)
+            .zip(&self.soil_temp_factor)
+            .zip(fixer.iter())
+        {
+            let (start, fixer) = if kind == CELL_OPEN {
+                (*soil, fixer)
+            } else {
+                (0.0, 0.0)
+            };
+            let developed = develop(start, site, temp_factor * year_factor, 1.0 + boost * fixer);
+            *soil = if kind == CELL_CLOSED { 0.0 } else { developed };
+        }
+    }
+
+    /// One year of every type in the cells of `cells`, tallest first, each under the
+    /// canopy of the taller types already updated; then the stage of each cell. Adds each
+    /// type's cover to `cover_sums` and each stage's cells to `stage_cells` (nodata as ice).
+    /// First establishment in an empty cell is drawn from a counter-based hash of seed,
+    /// year, type and cell (Salmon et al. 2011, "Parallel random numbers: as easy as 1, 2,
+    /// 3", SC'11), so the cell loop needs no sequential generator state and vectorises.
+    fn update_block(
+        &mut self,
+        cells: std::ops::Range<usize>,
+        year: i32,
+        anomaly_c: f32,
+        cover_sums: &mut [f64; MAX_TYPES],
+        stage_cells: &mut [usize; N_STAGES],
+    ) {
+        let n = self.state.n_cells;
+        let len = cells.len();
+        let sums = &mut self.block_sums;
+        for buffer in sums.iter_mut() {
+            buffer[..len].fill(0.0);
+        }
+        let [canopy, graminoid, woody, tree, oldest] = sums;
+        for &t in &self.order {
+            let setup = &self.types[t];
+            let form_weights = match setup.form {
+                GrowthForm::PioneerHerb => [0.0, 0.0, 0.0],
+                GrowthForm::Graminoid => [1.0, 0.0, 0.0],
+                GrowthForm::Shrub => [0.0, 1.0, 0.0],
+                GrowthForm::Tree => [0.0, 1.0, 1.0],
+            };
+            let layer = t * n + cells.start..t * n + cells.end;
+            grow_cells(
+                &setup.rates,
+                form_weights,
+                draw_key(self.establishment_key, year, t),
+                cells.start as u32,
+                anomaly_c,
+                CellInputs {
+                    kind: &self.cell_kind[cells.clone()],
+                    temp_base_c: &self.temp_base_c[cells.clone()],
+                    soil: &self.state.soil[cells.clone()],
+                    slope_deg: &self.slope_deg[cells.clone()],
+                    rain: &self.rain[layer.clone()],
+                },
+                &mut self.state.cover[layer.clone()],
+                &mut self.state.age_a[layer.clone()],
+                FormSums {
+                    canopy: &mut canopy[..len],
+                    graminoid: &mut graminoid[..len],
+                    woody: &mut woody[..len],
+                    tree: &mut tree[..len],
+                    oldest_tree_age_a: &mut oldest[..len],
+                },
+            );
+            cover_sums[t] += lane_sum(&self.state.cover[layer]);
+        }
+        let th = self.thresholds;
+        let stages = &mut self.state.stage[cells.clone()];
+        let kind = &self.cell_kind[cells];
+        for i in 0..len {
+            let cover = CellCover {
+                total: canopy[i],
+                graminoid: graminoid[i],
+                woody: woody[i],
+                tree: tree[i],
+                oldest_tree_age_a: oldest[i],
+            };
+            let code = stage(&cover, &th);
+            stages[i] = if kind[i] == CELL_CLOSED {
+                vegetation_code::ICE
+            } else {
+                code
+            };
+        }
+        for (k, count) in stage_cells.iter_mut().enumerate() {
+            *count += stages.iter().filter(|&&c| usize::from(c) == k).count();
         }
     }
 
@@ -772,4 +891,128 @@ fn poisson<R: Rng + ?Sized>(rng: &mut R, mean: f64) -> usize {
             * (std::f64::consts::TAU * uniform_open(rng)).cos();
         (mean + mean.sqrt() * z).round().max(0.0) as usize
     }
+}
+
+/// Per-cell layers one type's update reads.
+struct CellInputs<'a> {
+    kind: &'a [u8],
+    temp_base_c: &'a [f32],
+    soil: &'a [f32],
+    slope_deg: &'a [f32],
+    rain: &'a [f32],
+}
+
+/// Per-cell sums over the types updated so far this year.
+struct FormSums<'a> {
+    canopy: &'a mut [f32],
+    graminoid: &'a mut [f32],
+    woody: &'a mut [f32],
+    tree: &'a mut [f32],
+    oldest_tree_age_a: &'a mut [f32],
+}
+
+/// The cell loop of one type in [`VegetationModel::update_block`], over slices of one length so that the
+/// compiler drops bounds checks.
+#[allow(clippy::too_many_arguments)]
+fn grow_cells(
+    rates: &TypeRates,
+    [is_graminoid, is_woody, is_tree]: [f32; 3],
+    key: u32,
+    first_cell: u32,
+    anomaly_c: f32,
+    input: CellInputs,
+    cover: &mut [f32],
+    ages: &mut [u16],
+    sums: FormSums,
+) {
+    let n = cover.len();
+    let (kind, temp_base_c, soil, slope_deg, rain) = (
+        &input.kind[..n],
+        &input.temp_base_c[..n],
+        &input.soil[..n],
+        &input.slope_deg[..n],
+        &input.rain[..n],
+    );
+    let ages = &mut ages[..n];
+    let canopy = &mut sums.canopy[..n];
+    let graminoid = &mut sums.graminoid[..n];
+    let woody = &mut sums.woody[..n];
+    let tree = &mut sums.tree[..n];
+    let oldest = &mut sums.oldest_tree_age_a[..n];
+    for i in 0..n {
+        let kind = kind[i];
+        let suit = suitability(rates, temp_base_c[i] + anomaly_c, soil[i], slope_deg[i]);
+        let suit = if kind == CELL_CLOSED { 0.0 } else { suit };
+        let c0 = if kind == CELL_OPEN { cover[i] } else { 0.0 };
+        let age0 = if kind == CELL_OPEN { ages[i] } else { 0 };
+        let under = canopy[i];
+        let uniform = hash_uniform(key ^ (first_cell + i as u32));
+        let c = update_cover(rates, c0, suit, under, rain[i], uniform);
+        let gone = c < EXTINCT_COVER;
+        let c = if gone { 0.0 } else { c };
+        let age = if gone {
+            0
+        } else if age0 < u16::MAX {
+            age0 + 1
+        } else {
+            age0
+        };
+        cover[i] = c;
+        ages[i] = age;
+        canopy[i] = under + c;
+        graminoid[i] += is_graminoid * c;
+        woody[i] += is_woody * c;
+        tree[i] += is_tree * c;
+        let tree_age = if (is_tree > 0.0) & (c >= 0.05) {
+            f32::from(age)
+        } else {
+            0.0
+        };
+        oldest[i] = larger(oldest[i], tree_age);
+    }
+}
+
+/// Sum of a layer in f32 lanes, then f64 (lanes keep the loop vectorised).
+fn lane_sum(values: &[f32]) -> f64 {
+    let mut total = 0.0f64;
+    for chunk in values.chunks(4096) {
+        let mut lanes = [0.0f32; 16];
+        let mut blocks = chunk.chunks_exact(16);
+        for block in &mut blocks {
+            for (lane, &v) in lanes.iter_mut().zip(block) {
+                *lane += v;
+            }
+        }
+        let rest: f32 = blocks.remainder().iter().sum();
+        total += f64::from(lanes.iter().sum::<f32>() + rest);
+    }
+    total
+}
+
+/// Key of one year's establishment draws of type `t`.
+fn draw_key(seed: u64, year: i32, t: usize) -> u32 {
+    let mixed =
+        seed ^ (u64::from(year as u32) << 8) ^ (t as u64).wrapping_mul(0xD6E8_FEB8_6659_FD93);
+    let folded = (mixed ^ (mixed >> 32)) as u32;
+    hash32(folded.wrapping_add(0x632B_E5AB))
+}
+
+/// A 32-bit integer hash with good avalanche ("lowbias32" of Wellons' hash prospector,
+/// 2018, from memory): two multiply-xorshift rounds.
+#[inline]
+fn hash32(x: u32) -> u32 {
+    let mut x = x;
+    x ^= x >> 16;
+    x = x.wrapping_mul(0x7FEB_352D);
+    x ^= x >> 15;
+    x = x.wrapping_mul(0x846C_A68B);
+    x ^= x >> 16;
+    x
+}
+
+/// A uniform number in [0, 1) from the hash of a counter; fine resolution near 0, where
+/// small establishment probabilities are compared.
+#[inline]
+fn hash_uniform(counter: u32) -> f32 {
+    (hash32(counter) >> 1) as i32 as f32 * (1.0 / 2_147_483_648.0)
 }
