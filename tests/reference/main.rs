@@ -10,5 +10,6 @@ mod outline_mask;
 mod terrain_horn;
 mod veg_chronosequence;
 mod veg_kernels;
+mod veg_migration;
 mod veg_model;
 mod veg_spread;
