@@ -31,7 +31,6 @@ fn forefield_colonisation_follows_the_chronosequence() {
         &valley.bed_m,
         &valley.ice_thickness_m,
         &scenario,
-        &params,
         Some(&valley.vegetation),
     )
     .expect("valid run");

@@ -9,7 +9,7 @@ use crate::pft::VegetationError;
 use crate::scenario::Scenario;
 use crate::simulation::{IceSimulation, SimulationError, YearSummary};
 use crate::terrain::{derivatives, Sun};
-use crate::vegetation::{VegetationModel, VegetationParams, VegetationYearSummary, N_STAGES};
+use crate::vegetation::{VegetationModel, VegetationYearSummary, N_STAGES};
 
 /// A coupled run could not be built.
 #[derive(Debug, Clone, PartialEq, Error)]
@@ -38,14 +38,14 @@ pub struct CoupledSimulation {
 }
 
 impl CoupledSimulation {
-    /// Validates everything and prepares the run. `initial_vegetation` holds stage codes
-    /// 0-6 ([`crate::sample::vegetation_code`]); without it ice-free suitable ground starts
-    /// at its potential vegetation. Random choices use `scenario.seed`.
+    /// Validates everything and prepares the run; the plants come from
+    /// `scenario.vegetation`. `initial_vegetation` holds stage codes 0-6
+    /// ([`crate::sample::vegetation_code`]); without it ice-free suitable ground starts at
+    /// its potential vegetation. Random choices use `scenario.seed`.
     pub fn new(
         bed_m: &Grid,
         ice_thickness_m: &Grid,
         scenario: &Scenario,
-        vegetation: &VegetationParams,
         initial_vegetation: Option<&Grid>,
     ) -> Result<CoupledSimulation, CoupledError> {
         let ice = IceSimulation::new(bed_m, ice_thickness_m, scenario)?;
@@ -79,7 +79,7 @@ impl CoupledSimulation {
         let slope = derivatives(bed_m, Sun::default()).slope_deg;
         let anomaly = ice.summary()[0].temperature_anomaly_c;
         let model = VegetationModel::new(
-            vegetation,
+            &scenario.vegetation,
             &geometry,
             &bed_m.values,
             &slope,

@@ -1,5 +1,5 @@
 //! Scenario file: the versioned JSON that names the input grids and sets the years, climate,
-//! mass-balance and flow parameters and the random seed of a run.
+//! mass-balance, flow and vegetation parameters and the random seed of a run.
 //!
 //! Unknown fields are an error, missing fields take documented defaults, and every number is
 //! checked against a stated range before a run starts; the error names the field, the value
@@ -13,6 +13,8 @@ use crate::climate::ClimateParams;
 use crate::ice_flow::FlowParams;
 use crate::ice_outline::PlasticityParams;
 use crate::mass_balance::MassBalanceParams;
+use crate::pft::VegetationError;
+use crate::vegetation::VegetationParams;
 
 /// The scenario layout this engine reads and writes.
 pub const SCENARIO_VERSION: u32 = 1;
@@ -168,6 +170,10 @@ pub struct Scenario {
     /// Seed for every random choice of the run, 0 to 2^53 - 1. Same seed, same numbers.
     #[serde(default)]
     pub seed: u64,
+    /// Plant types, soil, growing season, stage thresholds, seed bank and dispersal grid
+    /// of the colonisation model.
+    #[serde(default)]
+    pub vegetation: VegetationParams,
 }
 
 impl Default for Scenario {
@@ -184,6 +190,7 @@ impl Default for Scenario {
             flow: FlowParams::default(),
             outline: PlasticityParams::default(),
             seed: 0,
+            vegetation: VegetationParams::default(),
         }
     }
 }
@@ -262,12 +269,44 @@ impl Scenario {
         self.mass_balance.validate()?;
         self.flow.validate()?;
         self.outline.validate()?;
+        self.vegetation.validate().map_err(vegetation_error)?;
         Ok(())
     }
 
     /// Last simulated year.
     pub fn end_year(&self) -> i32 {
         self.start_year + self.n_years as i32
+    }
+}
+
+/// A vegetation error as a scenario error, its field under `vegetation.`.
+fn vegetation_error(e: VegetationError) -> ScenarioError {
+    let field = |name: String| format!("vegetation.{name}");
+    match e {
+        VegetationError::OutOfRange {
+            field: name,
+            value,
+            min,
+            max,
+            unit,
+        } => ScenarioError::OutOfRange {
+            field: field(name),
+            value,
+            min,
+            max,
+            unit,
+        },
+        VegetationError::Invalid {
+            field: name,
+            problem,
+        } => ScenarioError::Invalid {
+            field: field(name),
+            problem,
+        },
+        other => ScenarioError::Invalid {
+            field: "vegetation".to_string(),
+            problem: other.to_string(),
+        },
     }
 }
 
@@ -332,5 +371,21 @@ mod tests {
         )
         .unwrap_err();
         assert!(err.to_string().contains("glacier_mask"), "{err}");
+    }
+
+    #[test]
+    fn vegetation_block_configures_plants_and_names_bad_fields() {
+        let scenario =
+            Scenario::from_json(r#"{"version": 1, "vegetation": {"dispersal_cell_size_m": 100}}"#)
+                .expect("valid");
+        assert_eq!(scenario.vegetation.dispersal_cell_size_m, 100.0);
+        assert_eq!(scenario.vegetation.types.len(), 5);
+        let mut bad = Scenario::default();
+        bad.vegetation.types[2].mean_dispersal_m = -3.0;
+        let message = Scenario::from_json(&bad.to_json()).unwrap_err().to_string();
+        assert!(
+            message.contains("vegetation.types[2].mean_dispersal_m"),
+            "{message}"
+        );
     }
 }
