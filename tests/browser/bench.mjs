@@ -1,6 +1,6 @@
-// The wasm side of `./build.sh bench`: the same 200-year ice run as `forefield bench`, inside
-// headless Debian Chromium, printed as JSON lines; with NATIVE_BENCH (the native JSON line)
-// set, also the wasm/native ratio. Medians over repeats, since shared machines are noisy.
+// The wasm side of `./build.sh bench`: the same 200-year ice run and coupled ice and
+// vegetation run as `forefield bench`, inside headless Debian Chromium, printed as JSON
+// lines; with NATIVE_BENCH (the native JSON lines) set, also the wasm/native ratios. Medians over repeats, since shared machines are noisy.
 
 import { chromium } from 'playwright-core';
 
@@ -8,6 +8,8 @@ const URL_BASE = process.env.FOREFIELD_URL ?? 'http://127.0.0.1:8765/';
 // Kept in step with BENCH_SCENARIO_JSON in crate/cli/src/bench.rs.
 const SCENARIO_JSON = '{"version": 1, "name": "benchmark", "n_years": 200}';
 const REPEATS = 3;
+const nativeLines = (process.env.NATIVE_BENCH ?? '').split('\n').filter((l) => l.trim()).map((l) => JSON.parse(l));
+const nativeOf = (bench) => nativeLines.find((l) => l.bench === bench);
 
 const browser = await chromium.launch({
   executablePath: '/usr/bin/chromium',
@@ -55,13 +57,63 @@ try {
     ice_area_km2_end: Number(result.summary[years].ice_area_km2.toFixed(3)),
   };
   console.log(JSON.stringify(line));
-  if (process.env.NATIVE_BENCH) {
-    const native = JSON.parse(process.env.NATIVE_BENCH);
+  const native = nativeOf('ice_run');
+  if (native) {
     console.log(JSON.stringify({
       bench: 'ice_run',
       side: 'ratio',
       wasm_over_native: Number((median / native.seconds_median).toFixed(3)),
       same_end_area: Math.abs(native.ice_area_km2_end - line.ice_area_km2_end) < 1e-3,
+    }));
+  }
+  // The coupled run: ice and the five default plant types from the sample's stage grid.
+  const coupled = await page.evaluate(async ({ scenario, repeats }) => {
+    const wasm = await import('/pkg/forefield_wasm.js');
+    await wasm.default();
+    const fetchBytes = async (name) => new Uint8Array(await (await fetch(`/bench-grids/${name}`)).arrayBuffer());
+    const surface = await fetchBytes('valley_dem.tif');
+    const ice = await fetchBytes('valley_ice_thickness.tif');
+    const stages = await fetchBytes('valley_vegetation.tif');
+    const seconds = [];
+    let summary = null;
+    let cells = 0;
+    for (let i = 0; i < repeats; i += 1) {
+      const run = new wasm.CoupledRun(scenario, surface, 'valley_dem.tif', ice, 'valley_ice_thickness.tif',
+        stages, 'valley_vegetation.tif');
+      const started = performance.now();
+      while (run.stepYears(10) > 0) { /* all years */ }
+      seconds.push((performance.now() - started) / 1000);
+      summary = run.summary();
+      cells = run.nCells();
+      run.free();
+    }
+    return { seconds, summary, cells };
+  }, { scenario: SCENARIO_JSON, repeats: REPEATS });
+  const coupledSeconds = [...coupled.seconds].sort((a, b) => a - b);
+  const coupledMedian = coupledSeconds[Math.floor(REPEATS / 2)];
+  const coupledYears = coupled.summary.length - 1;
+  const endStages = coupled.summary[coupledYears].vegetation.stage_area_km2;
+  const coupledLine = {
+    bench: 'coupled_run',
+    side: 'wasm',
+    years: coupledYears,
+    plant_types: coupled.summary[0].vegetation.n_types,
+    repeats: REPEATS,
+    seconds_median: Number(coupledMedian.toFixed(4)),
+    seconds_min: Number(coupledSeconds[0].toFixed(4)),
+    seconds_max: Number(coupledSeconds[REPEATS - 1].toFixed(4)),
+    seconds_per_year: Number((coupledMedian / coupledYears).toFixed(6)),
+    cell_years_per_second: Math.round((coupled.cells * coupledYears) / coupledMedian),
+    forest_area_km2_end: Number((endStages[5] + endStages[6]).toFixed(3)),
+  };
+  console.log(JSON.stringify(coupledLine));
+  const nativeCoupled = nativeOf('coupled_run');
+  if (nativeCoupled) {
+    console.log(JSON.stringify({
+      bench: 'coupled_run',
+      side: 'ratio',
+      wasm_over_native: Number((coupledMedian / nativeCoupled.seconds_median).toFixed(3)),
+      same_end_forest: Math.abs(nativeCoupled.forest_area_km2_end - coupledLine.forest_area_km2_end) < 1e-3,
     }));
   }
   // Slider scrub: the page's draw path (engine render into wasm memory, a view, one

@@ -1,10 +1,12 @@
-//! `forefield bench`: native timing of the 200-year ice run on the large sample valley,
-//! printed as JSON lines (medians over repeated runs, since shared machines are noisy).
+//! `forefield bench`: native timing of the 200-year ice run and of the coupled ice and
+//! vegetation run (five default plant types) on the large sample valley, printed as JSON
+//! lines (medians over repeated runs, since shared machines are noisy).
 
 use std::path::PathBuf;
 use std::time::Instant;
 
 use anyhow::{Context, Result};
+use forefield_engine::coupled::CoupledSimulation;
 use forefield_engine::geotiff::read_geotiff;
 use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation};
@@ -58,6 +60,34 @@ pub fn bench(args: &[String]) -> Result<()> {
         (start.ice_area_km2 * 1e6 / g.cell_area_m2()).round(),
         start.ice_area_km2,
         end.ice_area_km2,
+    );
+
+    let stages = read("valley_vegetation.tif")?;
+    let mut seconds = Vec::with_capacity(REPEATS);
+    let mut last = None;
+    for _ in 0..REPEATS {
+        let mut run = CoupledSimulation::new(&bed, &ice, &scenario, Some(&stages))?;
+        let started = Instant::now();
+        let mut end = None;
+        while let Some(row) = run.step_year() {
+            end = Some(row);
+        }
+        seconds.push(started.elapsed().as_secs_f64());
+        last = end;
+    }
+    let end = last.context("the benchmark scenario simulates no years")?;
+    seconds.sort_by(f64::total_cmp);
+    let median = seconds[REPEATS / 2];
+    let n_types = scenario.vegetation.types.len();
+    let forest_km2 = end.vegetation.stage_area_km2[5] + end.vegetation.stage_area_km2[6];
+    println!(
+        "{{\"bench\":\"coupled_run\",\"side\":\"native\",\"grid\":\"{}x{}\",\"years\":{years},\"plant_types\":{n_types},\"repeats\":{REPEATS},\"seconds_median\":{median:.4},\"seconds_min\":{:.4},\"seconds_max\":{:.4},\"seconds_per_year\":{:.6},\"cell_years_per_second\":{:.0},\"forest_area_km2_end\":{forest_km2:.3}}}",
+        g.n_cols,
+        g.n_rows,
+        seconds[0],
+        seconds[REPEATS - 1],
+        median / years as f64,
+        (g.n_cells() * years) as f64 / median,
     );
     Ok(())
 }

@@ -597,4 +597,9 @@ impl CoupledRun {
     pub fn summary(&self) -> Result<JsValue, JsError> {
         to_js(&self.rows)
     }
+
+    #[wasm_bindgen(js_name = nCells)]
+    pub fn n_cells(&self) -> usize {
+        self.simulation.ice().geometry().n_cells()
+    }
 }
