@@ -30,7 +30,11 @@ function rgbCss([r, g, b]) {
  */
 export function renderLegend(container, legend, formatNumber) {
   container.replaceChildren();
-  if (!legend || !legend.stops?.length) return;
+  if (!legend) return;
+  if (!legend.stops?.length) {
+    if (legend.classes?.length) renderCategories(container, legend);
+    return;
+  }
   const { title, unit, min, max, stops } = legend;
   // Years read as years: no thousands separator, no unit after each tick.
   const isYear = unit === 'year';
@@ -75,16 +79,33 @@ export function renderLegend(container, legend, formatNumber) {
   note.className = 'legend-note';
   note.textContent = legend.note ?? 'Over shaded relief lit from the north-west.';
 
-  const classes = document.createElement('ul');
-  classes.className = 'legend-classes';
-  for (const { label: name, rgb } of legend.classes ?? []) {
+  container.append(heading, body, classList(legend.classes ?? []), note);
+}
+
+/** Swatches with their names, one a line. */
+function classList(classes) {
+  const list = document.createElement('ul');
+  list.className = 'legend-classes';
+  for (const { label: name, rgb } of classes) {
     const item = document.createElement('li');
     const swatch = document.createElement('span');
     swatch.className = 'legend-swatch';
     swatch.style.background = rgbCss(rgb);
     item.append(swatch, name);
-    classes.append(item);
+    list.append(item);
   }
+  return list;
+}
 
-  container.append(heading, body, classes, note);
+/** A legend of named categories only (such as succession stages). */
+function renderCategories(container, legend) {
+  const heading = document.createElement('p');
+  heading.className = 'legend-title';
+  heading.textContent = legend.unit ? `${legend.title} (${legend.unit})` : legend.title;
+  const list = classList(legend.classes);
+  list.setAttribute('aria-label', `${legend.title}: ${legend.classes.map((c) => c.label).join(', ')}`);
+  const note = document.createElement('p');
+  note.className = 'legend-note';
+  note.textContent = legend.note ?? '';
+  container.append(heading, list, note);
 }

@@ -8,10 +8,11 @@ import { attachLoaders, readTerrainSelection, SelectionError } from './loaders.j
 import { renderLegend } from './legend.js';
 import { ScenarioForm } from './scenario_form.js';
 import { TimeBar } from './timebar.js';
-import { LineChart } from './charts.js';
+import { LineChart, MultiChart } from './charts.js';
 
 const SAMPLE_URL = './sample-grids/valley_dem.tif';
 const SAMPLE_ICE_URL = './sample-grids/valley_ice_thickness.tif';
+const SAMPLE_VEGETATION_URL = './sample-grids/valley_vegetation.tif';
 const SAMPLE_NAME = 'valley_dem.tif';
 
 const element = (id) => document.getElementById(id);
@@ -135,6 +136,9 @@ async function boot() {
   // The GeoTIFF bytes a run needs: the terrain as surface, and an ice-thickness grid.
   let surface = null;
   let ice = null;
+  // Succession stage codes at the start (the sample has its own; other terrain starts from
+  // each cell's potential vegetation).
+  let vegetation = null;
   let lastRun = null;
   let summary = null;
   let timelineInfo = null;
@@ -156,6 +160,13 @@ async function boot() {
   const areaChart = new LineChart(element('chart-area'), { title: 'Ice area', unit: 'km²', colour: '#2f6db0', decimals: 2 });
   const volumeChart = new LineChart(element('chart-volume'), { title: 'Ice volume', unit: 'km³', colour: '#1b306c', decimals: 3 });
   const historyChart = new LineChart(element('history-chart'), { title: 'Ice thickness here', unit: 'm', colour: '#2f6db0', decimals: 1 });
+  const stageChart = new MultiChart(element('chart-stages'), { title: 'Ice-free area by stage', unit: 'km²', stacked: true, decimals: 1 });
+  const coverChart = new MultiChart(element('history-cover'), { title: 'Cover here', unit: '%', max: 100 });
+  // Names and colours of the stages, from the engine's stage legend after a run.
+  let stageClasses = [];
+  const rgbCss = ([r, g, b]) => `rgb(${r} ${g} ${b})`;
+  // Line colours of the plant types, told apart by lightness as well as hue.
+  const TYPE_COLOURS = ['#c9a227', '#6f9a3a', '#a0522d', '#2e8b6e', '#173f35', '#7a5c99', '#4c7fb0', '#8c8c8c'];
 
   /** Draws the current layer and year; the view over wasm memory is made afresh each time
    *  because an engine call may have grown (and so moved) that memory. */
@@ -169,9 +180,13 @@ async function boot() {
       renderLegend(element('legend'), layer === 'terrain' ? workspace.legend() : workspace.layerLegend(layer),
         (value) => formatNumber(value));
     }
+    const typeName = layer.startsWith('cover:') ? timelineInfo.type_names[Number(layer.slice(6))] : '';
     const label = { terrain: 'Terrain map: shaded relief with elevation colours',
       ice_thickness: `Ice thickness in ${currentYear()} over shaded relief`,
-      exposure_year: `Year each cell became ice-free, as of ${currentYear()}` }[layer];
+      exposure_year: `Year each cell became ice-free, as of ${currentYear()}`,
+      stage: `Succession stage in ${currentYear()}`,
+      soil: `Soil development index in ${currentYear()}` }[layer]
+      ?? `Cover of ${typeName} in ${currentYear()}`;
     element('map').setAttribute('aria-label', label);
     document.body.dataset.drawn = `${layer}:${currentYear() ?? ''}`;
   }
@@ -184,7 +199,9 @@ async function boot() {
     drawMap();
     areaChart.setMarker(year);
     volumeChart.setMarker(year);
+    stageChart.setMarker(year);
     historyChart.setMarker(year);
+    coverChart.setMarker(year);
     showHistoryYear(year);
     if (hovered) {
       showReadout(workspace.readout(hovered.col, hovered.row), hoveredHistory, year);
@@ -194,7 +211,23 @@ async function boot() {
   function showHistoryYear(year) {
     if (!selectedHistory) return;
     element('hi-ice-label').textContent = `Ice in ${year}`;
-    element('hi-ice').textContent = `${formatNumber(selectedHistory.ice_thickness_m[year - selectedHistory.years[0]], 1)} m`;
+    const index = year - selectedHistory.years[0];
+    element('hi-ice').textContent = `${formatNumber(selectedHistory.ice_thickness_m[index], 1)} m`;
+    element('hi-stage-label').textContent = `Stage in ${year}`;
+    const stage = selectedHistory.stage[index];
+    element('hi-stage').textContent = stage == null ? '–' : stageClasses[stage]?.label ?? String(stage);
+  }
+
+  /** The first year the cell is in each stage after the start, e.g. "meadow 2041". */
+  function firstStageYears(history) {
+    const seen = new Set([history.stage[0]]);
+    const parts = [];
+    history.stage.forEach((stage, i) => {
+      if (seen.has(stage)) return;
+      seen.add(stage);
+      parts.push(`${stageClasses[stage]?.label ?? stage} ${history.years[i]}`);
+    });
+    return parts.length ? parts.join(', ') : `no change from ${stageClasses[history.stage[0]]?.label ?? '–'}`;
   }
 
   function selectCell(cell) {
@@ -213,6 +246,12 @@ async function boot() {
       : (h.covered_at_start ? `still under ice in ${timelineInfo.last_year}` : 'ice-free at the start');
     historyChart.setData(h.years, h.ice_thickness_m);
     historyChart.setMarker(timeBar.year());
+    element('hi-stages').textContent = h.stage.length ? firstStageYears(h) : '–';
+    coverChart.setData(h.years, h.cover.map((values, t) => ({
+      label: timelineInfo.type_names[t], colour: TYPE_COLOURS[t % TYPE_COLOURS.length],
+      values: values.map((v) => 100 * v),
+    })));
+    coverChart.setMarker(timeBar.year());
     showHistoryYear(timeBar.year());
   }
 
@@ -225,10 +264,12 @@ async function boot() {
     element('history').hidden = true;
     element('history-hint').textContent = 'After a run, click a cell on the map to see its history.';
     for (const option of element('layer').options) option.disabled = option.value !== 'terrain';
+    element('cover-layers').replaceChildren();
     layer = 'terrain';
     element('layer').value = 'terrain';
     areaChart.setData([], []);
     volumeChart.setData([], []);
+    stageChart.setData([], []);
   }
 
   /** Hands one file's bytes to the engine; on failure the previous terrain stays shown. */
@@ -246,6 +287,7 @@ async function boot() {
     // A run needs the surface as GeoTIFF bytes; the sample comes with its own ice grid.
     surface = sidecarText === undefined ? { bytes, name: fileName } : null;
     ice = null;
+    vegetation = null;
     drawMap({ keepView: false, legend: true });
     showInfo(info);
     showReadout(null);
@@ -344,14 +386,28 @@ async function boot() {
       progress.value = progress.max;
       const mib = timelineInfo.memory_bytes / 2 ** 20;
       setRunState('done', `Done: ${timelineInfo.start_year} to ${timelineInfo.last_year}. Timeline ${formatNumber(mib, 1)} MiB.`);
-      for (const option of element('layer').options) option.disabled = false;
-      if (layer === 'terrain') {
+      const names = timelineInfo.type_names;
+      element('cover-layers').replaceChildren(...names.map((name, index) => {
+        const option = document.createElement('option');
+        option.value = `cover:${index}`;
+        option.textContent = `Cover: ${name}`;
+        return option;
+      }));
+      const plantLayer = (value) => value === 'stage' || value === 'soil' || value.startsWith('cover:');
+      for (const option of element('layer').options) option.disabled = names.length === 0 && plantLayer(option.value);
+      if (layer === 'terrain' || !element('layer').querySelector(`option[value="${layer}"]:not([disabled])`)) {
         layer = 'ice_thickness';
-        element('layer').value = layer;
       }
+      element('layer').value = layer;
       const years = summary.map((row) => row.year);
       areaChart.setData(years, summary.map((row) => row.ice_area_km2));
       volumeChart.setData(years, summary.map((row) => row.ice_volume_km3));
+      stageClasses = names.length ? workspace.layerLegend('stage').classes : [];
+      // Stages 1-6 (ice-free ground), stacked from bare ground up.
+      stageChart.setData(years, names.length ? stageClasses.slice(1).map((c, k) => ({
+        label: c.label, colour: rgbCss(c.rgb),
+        values: summary.map((row) => row.vegetation.stage_area_km2[k + 1]),
+      })) : []);
       timeBar.setRange(timelineInfo.start_year, timelineInfo.last_year, timelineInfo.last_year);
       drawMap({ legend: true });
       if (selected) selectCell(selected);
@@ -384,10 +440,13 @@ async function boot() {
       if (!ice && surface.name === SAMPLE_NAME) {
         ice = { bytes: await fetchBytes(SAMPLE_ICE_URL), name: 'valley_ice_thickness.tif' };
       }
+      if (!vegetation && surface.name === SAMPLE_NAME) {
+        vegetation = { bytes: await fetchBytes(SAMPLE_VEGETATION_URL), name: 'valley_vegetation.tif' };
+      }
     } catch (error) {
       setRunning(false);
       setRunState('failed', 'The sample ice grid could not be fetched.');
-      showError(`valley_ice_thickness.tif could not be fetched: ${error.message}.`, 'Run failed');
+      showError(`The sample ice or vegetation grid could not be fetched: ${error.message}.`, 'Run failed');
       return;
     }
     if (!ice) {
@@ -395,11 +454,12 @@ async function boot() {
       setRunState('invalid', 'Not run: open an ice-thickness grid that matches the terrain.');
       return;
     }
-    lastRun = { scenarioJson, surface, ice };
+    lastRun = { scenarioJson, surface, ice, vegetation };
     worker ??= makeWorker();
     worker.postMessage({
       type: 'run', scenarioJson, surfaceBytes: surface.bytes, surfaceName: surface.name,
       iceBytes: ice.bytes, iceName: ice.name,
+      vegetationBytes: vegetation?.bytes ?? null, vegetationName: vegetation?.name ?? null,
     });
   }
 
@@ -450,6 +510,8 @@ async function boot() {
       summaryYears: summary?.length ?? 0 }),
     cellHistory: (col, row) => workspace.cellHistory(col, row),
     chartMarkerX: () => areaChart.markerX(),
+    stageChartMarkerX: () => stageChart.markerX(),
+    summary: () => summary,
     /** The last run's scenario stepped here through the engine's own IceRun (not the worker,
      *  not the timeline): thickness and exposure year of one cell for every year. */
     engineCellSeries: (col, row) => {

@@ -1,5 +1,5 @@
-// The simulation worker: runs a scenario year by year in its own copy of the engine, so the
-// page's thread only renders. Messages in: {type: 'run', ...} and {type: 'cancel'}.
+// The simulation worker: runs a scenario (ice and plants) year by year in its own copy of
+// the engine, so the page's thread only renders. Messages in: {type: 'run', ...} and {type: 'cancel'}.
 // Messages out: 'started', 'progress' (one per year), 'done' (the timeline as a transferred
 // ArrayBuffer and the yearly summary), 'cancelled' and 'failed' (with the engine's message).
 
@@ -18,12 +18,17 @@ function yieldToMessages() {
   });
 }
 
-async function run({ scenarioJson, surfaceBytes, surfaceName, iceBytes, iceName }) {
+async function run({
+  scenarioJson, surfaceBytes, surfaceName, iceBytes, iceName, vegetationBytes, vegetationName,
+}) {
   cancelRequested = false;
   let recorder = null;
   try {
     await ready;
-    recorder = new RunRecorder(scenarioJson, surfaceBytes, surfaceName, iceBytes, iceName);
+    // Without a vegetation grid the engine starts each ice-free cell at its potential
+    // vegetation.
+    recorder = RunRecorder.withPlants(scenarioJson, surfaceBytes, surfaceName, iceBytes, iceName,
+      vegetationBytes ?? undefined, vegetationName ?? undefined);
     const startYear = recorder.startYear();
     const endYear = recorder.endYear();
     postMessage({ type: 'started', startYear, endYear });

@@ -6,12 +6,13 @@
 //! pale (thin) to deep blue (thick); exposure year from dark plum (exposed early, the oldest
 //! ground) to pale straw (exposed late). Ground a layer does not describe is drawn as grey
 //! shaded relief so the layer stands out. The stage palette separates neighbouring stages by
-//! lightness as well as hue.
+//! lightness as well as hue. Plant cover runs from pale cream (none) to deep green (full);
+//! the soil index from pale sand (raw till) to dark brown (developed soil).
 
 use serde::Serialize;
 
 use crate::render::{ColorRamp, LegendStop};
-use crate::timeline::{Timeline, COVERED, NEVER_COVERED};
+use crate::timeline::{PlantQuantity, Timeline, COVERED, NEVER_COVERED};
 
 /// Ice thickness: pale ice-blue for thin ice to deep blue for thick ice (L* falls).
 pub const ICE_RAMP: ColorRamp = ColorRamp {
@@ -32,6 +33,28 @@ pub const EXPOSURE_RAMP: ColorRamp = ColorRamp {
         (0.5, [188, 74, 96]),
         (0.75, [232, 138, 72]),
         (1.0, [248, 228, 146]),
+    ],
+};
+
+/// Plant cover: pale cream (no cover) through sage to deep green (full cover); L* falls.
+pub const COVER_RAMP: ColorRamp = ColorRamp {
+    stops: &[
+        (0.0, [248, 244, 222]),
+        (0.25, [206, 224, 160]),
+        (0.5, [134, 188, 112]),
+        (0.75, [56, 136, 92]),
+        (1.0, [14, 72, 62]),
+    ],
+};
+
+/// Soil development index: pale sand (raw till) through ochre to dark brown; L* falls.
+pub const SOIL_RAMP: ColorRamp = ColorRamp {
+    stops: &[
+        (0.0, [246, 238, 216]),
+        (0.25, [226, 200, 152]),
+        (0.5, [190, 146, 98]),
+        (0.75, [134, 92, 62]),
+        (1.0, [70, 46, 34]),
     ],
 };
 
@@ -61,6 +84,12 @@ pub enum LayerKind {
     IceThickness,
     /// Year the ground became ice-free.
     ExposureYear,
+    /// Succession stage, codes 0-6 as [`STAGE_PALETTE`].
+    Stage,
+    /// Cover of one plant type (index), %.
+    Cover(usize),
+    /// Soil development index, 0-1.
+    Soil,
 }
 
 impl LayerKind {
@@ -69,7 +98,12 @@ impl LayerKind {
         match name {
             "ice_thickness" => Some(LayerKind::IceThickness),
             "exposure_year" => Some(LayerKind::ExposureYear),
-            _ => None,
+            "stage" => Some(LayerKind::Stage),
+            "soil" => Some(LayerKind::Soil),
+            _ => name
+                .strip_prefix("cover:")
+                .and_then(|t| t.parse().ok())
+                .map(LayerKind::Cover),
         }
     }
 }
@@ -102,6 +136,8 @@ pub struct LayerRenderer {
     light: Vec<u16>,
     /// Ground grey, shaded, as RGBA bytes of the whole grid.
     ground_rgba: Vec<u8>,
+    /// Stage per cell of the year being drawn (scratch).
+    stage: Vec<u8>,
 }
 
 impl LayerRenderer {
@@ -127,7 +163,11 @@ impl LayerRenderer {
         for (idx, &l) in light.iter().enumerate() {
             put(&mut ground_rgba, idx, GROUND_GREY, l);
         }
-        LayerRenderer { light, ground_rgba }
+        LayerRenderer {
+            light,
+            ground_rgba,
+            stage: Vec::new(),
+        }
     }
 
     /// Fills `rgba` (4 bytes per cell) with `kind` at the end of `year`.
@@ -166,6 +206,27 @@ impl LayerRenderer {
                     };
                     put(rgba, idx, colour, light[idx]);
                 });
+            }
+            LayerKind::Stage => {
+                timeline.fill_stage(year, &mut self.stage);
+                for (idx, &code) in self.stage.iter().enumerate() {
+                    let colour = STAGE_PALETTE
+                        .get(usize::from(code))
+                        .map_or(GROUND_GREY, |c| c.1);
+                    put(rgba, idx, colour, light[idx]);
+                }
+            }
+            LayerKind::Cover(_) | LayerKind::Soil => {
+                let (ramp, quantity) = match kind {
+                    LayerKind::Cover(t) => (COVER_RAMP, PlantQuantity::Cover(t)),
+                    _ => (SOIL_RAMP, PlantQuantity::Soil),
+                };
+                let lut = lut(ramp);
+                timeline.for_each_plant_value(year, quantity, |idx, q| {
+                    put(rgba, idx, lut[(q as usize).min(255)], light[idx]);
+                });
+                // The plants' ground under ice is drawn as ice.
+                timeline.for_each_ice_cell(year, |idx, _| put(rgba, idx, ICE_FLAT, light[idx]));
             }
         }
     }
@@ -250,6 +311,42 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
                 note: "Year the ground became ice-free (the latest, if ice came back).".into(),
             }
         }
+        LayerKind::Stage => LayerLegend {
+            title: "Succession stage".into(),
+            unit: String::new(),
+            min: 0.0,
+            max: 0.0,
+            stops: Vec::new(),
+            classes: STAGE_PALETTE
+                .iter()
+                .map(|&(label, rgb)| class(label, rgb))
+                .collect(),
+            note: "From cover and age of the plant types, every year exact.".into(),
+        },
+        LayerKind::Cover(t) => {
+            let name = timeline
+                .type_names()
+                .get(t)
+                .map_or_else(|| format!("type {}", t + 1), |n| n.clone());
+            LayerLegend {
+                title: format!("Cover: {name}"),
+                unit: "%".into(),
+                min: 0.0,
+                max: 100.0,
+                stops: ramp_stops(COVER_RAMP, 0.0, 100.0),
+                classes: vec![class("under ice", ICE_FLAT)],
+                note: "Share of the cell covered, in 0.4 % steps, between stored years.".into(),
+            }
+        }
+        LayerKind::Soil => LayerLegend {
+            title: "Soil development".into(),
+            unit: "index".into(),
+            min: 0.0,
+            max: 1.0,
+            stops: ramp_stops(SOIL_RAMP, 0.0, 1.0),
+            classes: vec![class("under ice", ICE_FLAT)],
+            note: "0 raw till, 1 mature soil.".into(),
+        },
     }
 }
 
@@ -292,7 +389,9 @@ mod tests {
     fn ramps_change_lightness_monotonically_and_widely() {
         check_monotonic(ICE_RAMP, false);
         check_monotonic(EXPOSURE_RAMP, true);
-        for ramp in [ICE_RAMP, EXPOSURE_RAMP] {
+        check_monotonic(COVER_RAMP, false);
+        check_monotonic(SOIL_RAMP, false);
+        for ramp in [ICE_RAMP, EXPOSURE_RAMP, COVER_RAMP, SOIL_RAMP] {
             let span = (lightness(ramp.at(0.0)) - lightness(ramp.at(1.0))).abs();
             assert!(span > 60.0, "L* span only {span}");
         }
@@ -330,5 +429,43 @@ mod tests {
         assert_eq!(&rgba[8..11], &GROUND_GREY[..]);
         let legend = legend(&timeline, LayerKind::ExposureYear);
         assert_eq!((legend.min, legend.max), (2000.0, 2001.0));
+    }
+
+    #[test]
+    fn renders_stage_cover_and_soil_of_a_run_with_plants() {
+        // 3 x 1 grid: ice that stays, ice that melts out in 2001, old meadow.
+        let start = [80.0_f32, 5.0, 0.0];
+        let after = [70.0_f32, 0.0, 0.0];
+        let mut recorder = TimelineRecorder::new(3, 2000, 1, &start, DEFAULT_FRAME_BUDGET_BYTES)
+            .with_plants(
+                vec!["herbs".into()],
+                &[0, 0, 3],
+                &[&[0.0, 0.0, 1.0]],
+                &[0.0, 0.0, 0.5],
+                1 << 20,
+                1 << 20,
+            );
+        recorder.record_year(2001, &after);
+        recorder.record_plants(2001, &[0, 1, 3], &[&[0.0, 0.0, 1.0]], &[0.0, 0.0, 0.5]);
+        let timeline = recorder.finish_with_plants(&after, &[&[0.0, 0.0, 1.0]], &[0.0, 0.0, 0.5]);
+        let mut renderer = LayerRenderer::new(&[1.0; 3], &[false; 3]);
+        let mut rgba = Vec::new();
+        renderer.render(&timeline, LayerKind::Stage, 2000, &mut rgba);
+        assert_eq!(&rgba[4..7], &STAGE_PALETTE[0].1[..]);
+        renderer.render(&timeline, LayerKind::Stage, 2001, &mut rgba);
+        assert_eq!(&rgba[..3], &STAGE_PALETTE[0].1[..]);
+        assert_eq!(&rgba[4..7], &STAGE_PALETTE[1].1[..]);
+        assert_eq!(&rgba[8..11], &STAGE_PALETTE[3].1[..]);
+        renderer.render(&timeline, LayerKind::Cover(0), 2001, &mut rgba);
+        assert_eq!(&rgba[..3], &ICE_FLAT[..]);
+        assert_eq!(&rgba[4..7], &COVER_RAMP.at(0.0)[..]);
+        assert_eq!(&rgba[8..11], &COVER_RAMP.at(1.0)[..]);
+        renderer.render(&timeline, LayerKind::Soil, 2001, &mut rgba);
+        assert_eq!(&rgba[8..11], &SOIL_RAMP.at(128.0 / 255.0)[..]);
+        assert_eq!(LayerKind::from_name("cover:0"), Some(LayerKind::Cover(0)));
+        let stage_legend = legend(&timeline, LayerKind::Stage);
+        assert_eq!(stage_legend.classes.len(), 7);
+        assert_eq!(stage_legend.classes[6].label, "mature forest");
+        assert_eq!(legend(&timeline, LayerKind::Cover(0)).title, "Cover: herbs");
     }
 }

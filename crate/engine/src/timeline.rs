@@ -15,8 +15,16 @@
 //!   whether a cell shows ice at all. The interval is chosen at the start so that the frames
 //!   fit a memory budget; on the 400 x 400 sample it is one year (every year stored).
 //!
+//! - **Succession stage** (when the run has plants) is exact for every year: a full `u8` grid
+//!   at stage keyframes plus, for every year, the list of cells whose stage changed
+//!   (5 bytes each). A year is its keyframe with at most one interval of changes applied.
+//! - **Cover of each plant type** and the **soil index** are kept at cover keyframes in
+//!   steps of 1/255 (one byte per cell and type) and interpolated linearly between them.
+//!
 //! Memory: 3 bytes per cell for cover events plus 2 bytes per cell inside the ice box per
-//! keyframe. [`Timeline::memory_bytes`] gives the figure for a run.
+//! keyframe; with plants, 1 byte per cell per stage keyframe, 5 bytes per stage change, and
+//! `n_types + 1` bytes per cell per cover keyframe. Each kind of keyframe has its own budget,
+//! which sets its interval. [`Timeline::memory_bytes`] gives the figure for a run.
 //!
 //! The whole store travels between threads as one byte string ([`Timeline::to_bytes`],
 //! [`Timeline::from_bytes`]): a worker records, the page renders.
@@ -33,7 +41,15 @@ pub const THICKNESS_STEP_M: f32 = 0.05;
 /// typical limit of several GiB, and copied once between worker and page).
 pub const DEFAULT_FRAME_BUDGET_BYTES: usize = 32 << 20;
 
-const MAGIC: &[u8; 8] = b"FFTLINE1";
+/// Default budget for stage keyframes, bytes (8 MiB: every 25 years or closer for 200 years
+/// of 1M cells).
+pub const DEFAULT_STAGE_BUDGET_BYTES: usize = 8 << 20;
+
+/// Default budget for cover and soil keyframes, bytes (48 MiB: five plant types and soil on
+/// 1M cells give 8 keyframes).
+pub const DEFAULT_COVER_BUDGET_BYTES: usize = 48 << 20;
+
+const MAGIC: &[u8; 8] = b"FFTLINE2";
 
 /// Per-cell flag: the cell was ice-covered at the start.
 const FLAG_COVERED_AT_START: u8 = 1;
@@ -160,6 +176,73 @@ pub struct Timeline {
     later_toggles: Vec<(u32, u16)>,
     /// Largest stored thickness (quantised), kept so a draw need not scan the frames.
     max_thickness_q: u16,
+    /// Stages, covers and soil, when the run had plants.
+    plants: Option<PlantTrack>,
+}
+
+/// Succession stage, cover and soil of a run with plants.
+#[derive(Clone, Debug, PartialEq)]
+struct PlantTrack {
+    type_names: Vec<String>,
+    stage_interval: u32,
+    /// Full stage grids at keyframe years, in year order; the first is the start.
+    stage_frames: Vec<(i32, Vec<u8>)>,
+    /// `changes[change_start[k]..change_start[k + 1]]` are the stage changes of year
+    /// `start_year + 1 + k`: (cell index, new stage).
+    change_start: Vec<u32>,
+    changes: Vec<(u32, u8)>,
+    cover_interval: u32,
+    cover_frames: Vec<CoverFrame>,
+}
+
+/// Cover of every type (type-major) and soil index of one keyframe year, in 1/255 steps.
+#[derive(Clone, Debug, PartialEq)]
+struct CoverFrame {
+    year: i32,
+    cover_q: Vec<u8>,
+    soil_q: Vec<u8>,
+}
+
+impl CoverFrame {
+    fn new(year: i32, covers: &[&[f32]], soil: &[f32]) -> CoverFrame {
+        let mut cover_q = Vec::with_capacity(covers.len() * soil.len());
+        for cover in covers {
+            cover_q.extend(cover.iter().map(|&c| quantise_unit(c)));
+        }
+        CoverFrame {
+            year,
+            cover_q,
+            soil_q: soil.iter().map(|&s| quantise_unit(s)).collect(),
+        }
+    }
+}
+
+/// A value in [0, 1] to 1/255 steps.
+fn quantise_unit(v: f32) -> u8 {
+    if v.is_finite() {
+        (v.clamp(0.0, 1.0) * 255.0).round() as u8
+    } else {
+        0
+    }
+}
+
+/// Smallest keyframe interval that keeps the frames of `n_years` inside `budget_bytes`.
+fn keyframe_interval_for(n_years: u32, frame_bytes: usize, budget_bytes: usize) -> u32 {
+    let frames_in_budget = (budget_bytes / frame_bytes.max(1)).max(2);
+    if (n_years as usize) < frames_in_budget {
+        1
+    } else {
+        (n_years as usize).div_ceil(frames_in_budget - 1).max(1) as u32
+    }
+}
+
+/// A plant quantity stored at cover keyframes.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum PlantQuantity {
+    /// Cover of one plant type (index), fraction.
+    Cover(usize),
+    /// Soil development index.
+    Soil,
 }
 
 fn max_q(frames: &[Frame]) -> u16 {
@@ -177,6 +260,8 @@ pub struct TimelineRecorder {
     timeline: Timeline,
     end_year: i32,
     covered_now: Vec<bool>,
+    /// Stage of each cell as last recorded, when recording plants.
+    stage_now: Vec<u8>,
 }
 
 impl TimelineRecorder {
@@ -220,10 +305,88 @@ impl TimelineRecorder {
                 first_toggle: vec![NO_TOGGLE; n_cells],
                 later_toggles: Vec::new(),
                 max_thickness_q: 0,
+                plants: None,
             },
             end_year: start_year + n_years as i32,
             covered_now,
+            stage_now: Vec::new(),
         }
+    }
+
+    /// Records plants too, from their start state: stage codes, the cover of each type
+    /// (named in `type_names`) and the soil index, each one value per cell. Keyframe
+    /// intervals follow from the two budgets.
+    pub fn with_plants(
+        mut self,
+        type_names: Vec<String>,
+        stage: &[u8],
+        covers: &[&[f32]],
+        soil: &[f32],
+        stage_budget_bytes: usize,
+        cover_budget_bytes: usize,
+    ) -> TimelineRecorder {
+        let n_years = (self.end_year - self.timeline.start_year).max(0) as u32;
+        let n_cells = stage.len();
+        let start = self.timeline.start_year;
+        self.timeline.plants = Some(PlantTrack {
+            stage_interval: keyframe_interval_for(n_years, n_cells, stage_budget_bytes),
+            cover_interval: keyframe_interval_for(
+                n_years,
+                n_cells * (covers.len() + 1),
+                cover_budget_bytes,
+            ),
+            type_names,
+            stage_frames: vec![(start, stage.to_vec())],
+            change_start: vec![0],
+            changes: Vec::new(),
+            cover_frames: vec![CoverFrame::new(start, covers, soil)],
+        });
+        self.stage_now = stage.to_vec();
+        self
+    }
+
+    /// Records the plants at the end of `year`, the year of the last [`Self::record_year`].
+    pub fn record_plants(&mut self, year: i32, stage: &[u8], covers: &[&[f32]], soil: &[f32]) {
+        let start = self.timeline.start_year;
+        let end_year = self.end_year;
+        let Some(plants) = self.timeline.plants.as_mut() else {
+            return;
+        };
+        for (idx, (now, &new)) in self.stage_now.iter_mut().zip(stage).enumerate() {
+            if *now != new {
+                *now = new;
+                plants.changes.push((idx as u32, new));
+            }
+        }
+        plants.change_start.push(plants.changes.len() as u32);
+        let since_start = (year - start) as u32;
+        if since_start % plants.stage_interval == 0 {
+            plants.stage_frames.push((year, stage.to_vec()));
+        }
+        if since_start % plants.cover_interval == 0 || year >= end_year {
+            plants
+                .cover_frames
+                .push(CoverFrame::new(year, covers, soil));
+        }
+    }
+
+    /// As [`Self::finish`], first keeping the plants' present covers as the last cover
+    /// keyframe if the run stopped before one.
+    pub fn finish_with_plants(
+        mut self,
+        ice_thickness_m: &[f32],
+        covers: &[&[f32]],
+        soil: &[f32],
+    ) -> Timeline {
+        let last_year = self.timeline.last_year;
+        if let Some(plants) = self.timeline.plants.as_mut() {
+            if plants.cover_frames.last().map(|f| f.year) != Some(last_year) {
+                plants
+                    .cover_frames
+                    .push(CoverFrame::new(last_year, covers, soil));
+            }
+        }
+        self.finish(ice_thickness_m)
     }
 
     /// Records the thickness at the end of `year` (the year after the last one recorded).
@@ -275,6 +438,22 @@ impl TimelineRecorder {
     }
 }
 
+/// Bytes a plant track holds.
+fn plant_memory_bytes(plants: &PlantTrack) -> usize {
+    plants
+        .stage_frames
+        .iter()
+        .map(|f| f.1.len() + 4)
+        .sum::<usize>()
+        + 4 * plants.change_start.len()
+        + 5 * plants.changes.len()
+        + plants
+            .cover_frames
+            .iter()
+            .map(|f| f.cover_q.len() + f.soil_q.len() + 4)
+            .sum::<usize>()
+}
+
 impl Timeline {
     pub fn n_cols(&self) -> usize {
         self.n_cols
@@ -315,6 +494,156 @@ impl Timeline {
                 .iter()
                 .map(|f| 2 * f.thickness_q.len() + 20)
                 .sum::<usize>()
+            + self.plants.as_ref().map_or(0, plant_memory_bytes)
+    }
+
+    /// Bytes held for stages, covers and soil (zero without plants).
+    pub fn plant_memory_bytes(&self) -> usize {
+        self.plants.as_ref().map_or(0, plant_memory_bytes)
+    }
+
+    /// Whether the run recorded plants.
+    pub fn has_plants(&self) -> bool {
+        self.plants.is_some()
+    }
+
+    /// Names of the recorded plant types (empty without plants).
+    pub fn type_names(&self) -> &[String] {
+        self.plants.as_ref().map_or(&[], |p| &p.type_names)
+    }
+
+    /// Stage keyframe interval and cover keyframe interval, years (`None` without plants).
+    pub fn plant_intervals(&self) -> Option<(u32, u32)> {
+        self.plants
+            .as_ref()
+            .map(|p| (p.stage_interval, p.cover_interval))
+    }
+
+    /// Fills `stage` (resized to the grid) with each cell's succession stage at the end of
+    /// `year`: the stage keyframe at or before it and the changes since. Without plants every
+    /// cell reads 0 under ice and 1 elsewhere.
+    pub fn fill_stage(&self, year: i32, stage: &mut Vec<u8>) {
+        let year = self.clamp_year(year);
+        stage.clear();
+        let Some(plants) = self.plants.as_ref() else {
+            stage.extend((0..self.n_cells()).map(
+                |idx| {
+                    if self.cover_at(idx, year).0 {
+                        0
+                    } else {
+                        1
+                    }
+                },
+            ));
+            return;
+        };
+        let frame_idx = plants.stage_frames.partition_point(|f| f.0 <= year) - 1;
+        let (frame_year, frame) = &plants.stage_frames[frame_idx];
+        stage.extend_from_slice(frame);
+        let (from, to) = (
+            (frame_year - self.start_year) as usize,
+            (year - self.start_year) as usize,
+        );
+        let last = plants.change_start.len() - 1;
+        let lo = plants.change_start[from.min(last)] as usize;
+        let hi = plants.change_start[to.min(last)] as usize;
+        for &(cell, new) in &plants.changes[lo..hi] {
+            stage[cell as usize] = new;
+        }
+    }
+
+    /// Stage of one cell for every recorded year, start first.
+    pub fn stage_history(&self, idx: usize) -> Vec<u8> {
+        let n_years = (self.last_year - self.start_year) as usize + 1;
+        let Some(plants) = self.plants.as_ref() else {
+            return (self.start_year..=self.last_year)
+                .map(|y| u8::from(!self.cover_at(idx, y).0))
+                .collect();
+        };
+        let mut out = Vec::with_capacity(n_years);
+        let mut now = plants.stage_frames[0].1[idx];
+        out.push(now);
+        for k in 0..n_years - 1 {
+            let (Some(&lo), Some(&hi)) =
+                (plants.change_start.get(k), plants.change_start.get(k + 1))
+            else {
+                out.push(now);
+                continue;
+            };
+            let (lo, hi) = (lo as usize, hi as usize);
+            if let Some(&(_, new)) = plants.changes[lo..hi]
+                .iter()
+                .find(|&&(cell, _)| cell as usize == idx)
+            {
+                now = new;
+            }
+            out.push(now);
+        }
+        out
+    }
+
+    /// The cover keyframes around `year` and the weight of the later one.
+    fn cover_bracket(&self, year: i32) -> Option<(&CoverFrame, &CoverFrame, f32)> {
+        let frames = &self.plants.as_ref()?.cover_frames;
+        let year = self.clamp_year(year);
+        let after = frames
+            .partition_point(|f| f.year < year)
+            .min(frames.len() - 1);
+        let b = &frames[after];
+        if b.year == year || after == 0 {
+            return Some((b, b, 0.0));
+        }
+        let a = &frames[after - 1];
+        Some((a, b, (year - a.year) as f32 / (b.year - a.year) as f32))
+    }
+
+    fn quantity_slice<'a>(&self, frame: &'a CoverFrame, quantity: PlantQuantity) -> &'a [u8] {
+        let n = self.n_cells();
+        match quantity {
+            PlantQuantity::Cover(t) => frame.cover_q.get(t * n..(t + 1) * n).unwrap_or(&[]),
+            PlantQuantity::Soil => &frame.soil_q,
+        }
+    }
+
+    /// Calls `visit(cell index, value in 1/255 steps)` for every cell with `quantity` at the
+    /// end of `year`, interpolated between cover keyframes; nothing without plants or for a
+    /// type that was not recorded.
+    #[inline]
+    pub fn for_each_plant_value(
+        &self,
+        year: i32,
+        quantity: PlantQuantity,
+        mut visit: impl FnMut(usize, f32),
+    ) {
+        let Some((a, b, w)) = self.cover_bracket(year) else {
+            return;
+        };
+        let (qa, qb) = (
+            self.quantity_slice(a, quantity),
+            self.quantity_slice(b, quantity),
+        );
+        if qa.len() != self.n_cells() || qb.len() != self.n_cells() {
+            return;
+        }
+        for (idx, (&va, &vb)) in qa.iter().zip(qb).enumerate() {
+            let (va, vb) = (f32::from(va), f32::from(vb));
+            visit(idx, va + w * (vb - va));
+        }
+    }
+
+    /// One cell's `quantity` (fraction or index, 0 to 1) at the end of `year`, as drawn.
+    pub fn plant_value_at(&self, idx: usize, year: i32, quantity: PlantQuantity) -> Option<f32> {
+        let (a, b, w) = self.cover_bracket(year)?;
+        let va = f32::from(*self.quantity_slice(a, quantity).get(idx)?);
+        let vb = f32::from(*self.quantity_slice(b, quantity).get(idx)?);
+        Some((va + w * (vb - va)) / 255.0)
+    }
+
+    /// Years that hold a cover keyframe (empty without plants).
+    pub fn cover_keyframe_years(&self) -> Vec<i32> {
+        self.plants.as_ref().map_or(Vec::new(), |p| {
+            p.cover_frames.iter().map(|f| f.year).collect()
+        })
     }
 
     /// Largest stored thickness over all keyframes, m.
@@ -542,6 +871,40 @@ impl Timeline {
             out.extend_from_slice(&cell.to_le_bytes());
             out.extend_from_slice(&t.to_le_bytes());
         }
+        match &self.plants {
+            None => out.push(0),
+            Some(plants) => {
+                out.push(1);
+                let put = |out: &mut Vec<u8>, v: u32| out.extend_from_slice(&v.to_le_bytes());
+                put(&mut out, plants.type_names.len() as u32);
+                for name in &plants.type_names {
+                    put(&mut out, name.len() as u32);
+                    out.extend_from_slice(name.as_bytes());
+                }
+                put(&mut out, plants.stage_interval);
+                put(&mut out, plants.cover_interval);
+                put(&mut out, plants.stage_frames.len() as u32);
+                for (year, frame) in &plants.stage_frames {
+                    put(&mut out, *year as u32);
+                    out.extend_from_slice(frame);
+                }
+                put(&mut out, plants.change_start.len() as u32);
+                for &c in &plants.change_start {
+                    put(&mut out, c);
+                }
+                put(&mut out, plants.changes.len() as u32);
+                for &(cell, stage) in &plants.changes {
+                    put(&mut out, cell);
+                    out.push(stage);
+                }
+                put(&mut out, plants.cover_frames.len() as u32);
+                for frame in &plants.cover_frames {
+                    put(&mut out, frame.year as u32);
+                    out.extend_from_slice(&frame.cover_q);
+                    out.extend_from_slice(&frame.soil_q);
+                }
+            }
+        }
         out
     }
 
@@ -605,7 +968,13 @@ impl Timeline {
             }
             later_toggles.push((cell, u16::from_le_bytes([raw[0], raw[1]])));
         }
+        let plants = match reader.take(1)?[0] {
+            0 => None,
+            1 => Some(read_plants(&mut reader, n_cells, start_year, last_year)?),
+            _ => return Err(TimelineError::Inconsistent("plant flag")),
+        };
         Ok(Timeline {
+            plants,
             max_thickness_q: max_q(&frames),
             n_cols,
             n_rows,
@@ -618,6 +987,102 @@ impl Timeline {
             later_toggles,
         })
     }
+}
+
+/// Reads the plant part of [`Timeline::to_bytes`] output.
+fn read_plants(
+    reader: &mut Reader,
+    n_cells: usize,
+    start_year: i32,
+    last_year: i32,
+) -> Result<PlantTrack, TimelineError> {
+    let n_years = (last_year - start_year) as usize;
+    let n_types = reader.u32()? as usize;
+    if n_types > 64 {
+        return Err(TimelineError::Inconsistent("number of plant types"));
+    }
+    let mut type_names = Vec::with_capacity(n_types);
+    for _ in 0..n_types {
+        let len = reader.u32()? as usize;
+        let raw = reader.take(len)?;
+        type_names.push(
+            String::from_utf8(raw.to_vec())
+                .map_err(|_| TimelineError::Inconsistent("plant type name"))?,
+        );
+    }
+    let stage_interval = reader.u32()?;
+    let cover_interval = reader.u32()?;
+    if stage_interval == 0 || cover_interval == 0 {
+        return Err(TimelineError::Inconsistent("plant keyframe interval"));
+    }
+    let n_stage_frames = reader.u32()? as usize;
+    let mut stage_frames = Vec::with_capacity(n_stage_frames.min(4096));
+    for _ in 0..n_stage_frames {
+        let year = reader.u32()? as i32;
+        stage_frames.push((year, reader.take(n_cells)?.to_vec()));
+    }
+    if stage_frames.first().map(|f| f.0) != Some(start_year)
+        || stage_frames.windows(2).any(|w| w[0].0 >= w[1].0)
+    {
+        return Err(TimelineError::Inconsistent("stage keyframe years"));
+    }
+    let n_starts = reader.u32()? as usize;
+    if n_starts == 0 || n_starts > n_years + 1 {
+        return Err(TimelineError::Inconsistent("stage change index"));
+    }
+    let mut change_start = Vec::with_capacity(n_starts);
+    for _ in 0..n_starts {
+        change_start.push(reader.u32()?);
+    }
+    let n_changes = reader.u32()? as usize;
+    if change_start.windows(2).any(|w| w[0] > w[1])
+        || change_start[0] != 0
+        || change_start[n_starts - 1] as usize != n_changes
+    {
+        return Err(TimelineError::Inconsistent("stage change index"));
+    }
+    let raw = reader.take(
+        n_changes
+            .checked_mul(5)
+            .ok_or(TimelineError::Inconsistent("stage changes"))?,
+    )?;
+    let mut changes = Vec::with_capacity(n_changes);
+    for c in raw.chunks_exact(5) {
+        let cell = u32::from_le_bytes([c[0], c[1], c[2], c[3]]);
+        if cell as usize >= n_cells {
+            return Err(TimelineError::Inconsistent("stage change outside the grid"));
+        }
+        changes.push((cell, c[4]));
+    }
+    let n_cover_frames = reader.u32()? as usize;
+    if n_cover_frames == 0 {
+        return Err(TimelineError::Inconsistent("no cover keyframe"));
+    }
+    let mut cover_frames = Vec::with_capacity(n_cover_frames.min(4096));
+    for _ in 0..n_cover_frames {
+        let year = reader.u32()? as i32;
+        let cover_q = reader.take(n_types * n_cells)?.to_vec();
+        let soil_q = reader.take(n_cells)?.to_vec();
+        cover_frames.push(CoverFrame {
+            year,
+            cover_q,
+            soil_q,
+        });
+    }
+    if cover_frames.windows(2).any(|w| w[0].year >= w[1].year) {
+        return Err(TimelineError::Inconsistent(
+            "cover keyframe years out of order",
+        ));
+    }
+    Ok(PlantTrack {
+        type_names,
+        stage_interval,
+        stage_frames,
+        change_start,
+        changes,
+        cover_interval,
+        cover_frames,
+    })
 }
 
 /// Exposure marker: under ice in that year.
@@ -763,5 +1228,84 @@ mod tests {
             Timeline::from_bytes(b"not a timeline at all"),
             Err(TimelineError::BadMagic)
         );
+    }
+
+    /// Stage of cell `idx` in year offset `y`: cells step up one stage every `idx + 1` years.
+    fn stage_of(idx: usize, y: i32) -> u8 {
+        (1 + y as usize / (idx + 1)).min(6) as u8
+    }
+
+    fn plants_of(y: i32) -> (Vec<u8>, Vec<f32>, Vec<f32>, Vec<f32>) {
+        let stage = (0..12).map(|idx| stage_of(idx, y)).collect();
+        let herbs = (0..12)
+            .map(|idx| (0.05 * y as f32 + 0.01 * idx as f32).min(1.0))
+            .collect();
+        let trees = (0..12)
+            .map(|idx| if idx % 2 == 0 { 0.3 } else { 0.0 })
+            .collect();
+        let soil = (0..12)
+            .map(|idx| 0.1 * (idx % 5) as f32 + 0.02 * y as f32)
+            .collect();
+        (stage, herbs, trees, soil)
+    }
+
+    fn record_with_plants(n_years: u32, stage_budget: usize, cover_budget: usize) -> Timeline {
+        let (stage, herbs, trees, soil) = plants_of(0);
+        let mut recorder = TimelineRecorder::new(4, 2000, n_years, &thickness(0), 1 << 20)
+            .with_plants(
+                vec!["herbs".into(), "trees".into()],
+                &stage,
+                &[&herbs, &trees],
+                &soil,
+                stage_budget,
+                cover_budget,
+            );
+        for y in 1..=n_years as i32 {
+            recorder.record_year(2000 + y, &thickness(y));
+            let (stage, herbs, trees, soil) = plants_of(y);
+            recorder.record_plants(2000 + y, &stage, &[&herbs, &trees], &soil);
+        }
+        let (_, herbs, trees, soil) = plants_of(n_years as i32);
+        recorder.finish_with_plants(&thickness(n_years as i32), &[&herbs, &trees], &soil)
+    }
+
+    #[test]
+    fn stages_are_exact_every_year_and_covers_interpolate_between_keyframes() {
+        // Budgets of three stage grids and three cover frames force intervals above one.
+        let timeline = record_with_plants(10, 3 * 12, 3 * 36);
+        let (stage_interval, cover_interval) = timeline.plant_intervals().unwrap();
+        assert!(stage_interval > 1 && cover_interval > 1);
+        let mut stage = Vec::new();
+        for y in 0..=10 {
+            timeline.fill_stage(2000 + y, &mut stage);
+            let expected: Vec<u8> = (0..12).map(|idx| stage_of(idx, y)).collect();
+            assert_eq!(stage, expected, "year {y}");
+        }
+        for idx in 0..12 {
+            let expected: Vec<u8> = (0..=10).map(|y| stage_of(idx, y)).collect();
+            assert_eq!(timeline.stage_history(idx), expected, "cell {idx}");
+        }
+        // Herb cover and soil change linearly, so interpolation holds to the 1/255 step.
+        for y in 0..=10 {
+            let (_, herbs, trees, soil) = plants_of(y);
+            for idx in 0..12 {
+                for (quantity, expected) in [
+                    (PlantQuantity::Cover(0), herbs[idx]),
+                    (PlantQuantity::Cover(1), trees[idx]),
+                    (PlantQuantity::Soil, soil[idx]),
+                ] {
+                    let got = timeline.plant_value_at(idx, 2000 + y, quantity).unwrap();
+                    assert!(
+                        (got - expected).abs() <= 1.0 / 255.0,
+                        "{quantity:?} year {y} cell {idx}: {got} vs {expected}"
+                    );
+                }
+            }
+        }
+        assert_eq!(timeline.type_names(), ["herbs", "trees"]);
+        assert!(timeline.plant_memory_bytes() > 0);
+        let bytes = timeline.to_bytes();
+        assert_eq!(Timeline::from_bytes(&bytes), Ok(timeline));
+        assert!(Timeline::from_bytes(&bytes[..bytes.len() - 1]).is_err());
     }
 }

@@ -3,14 +3,20 @@
 
 mod schema;
 
+use forefield_engine::coupled::CoupledSimulation;
 use forefield_engine::geotiff::read_geotiff;
 use forefield_engine::heightmap_png::read_heightmap_png;
 use forefield_engine::layers::{self, LayerKind, LayerRenderer};
 use forefield_engine::render::{render_shaded, Legend, ELEVATION_RAMP};
 use forefield_engine::scenario::Scenario;
+use forefield_engine::simulation::YearSummary;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation};
 use forefield_engine::terrain::{self, Sun, TerrainDerivatives};
-use forefield_engine::timeline::{Timeline, TimelineRecorder, DEFAULT_FRAME_BUDGET_BYTES};
+use forefield_engine::timeline::{
+    PlantQuantity, Timeline, TimelineRecorder, DEFAULT_COVER_BUDGET_BYTES,
+    DEFAULT_FRAME_BUDGET_BYTES, DEFAULT_STAGE_BUDGET_BYTES,
+};
+use forefield_engine::vegetation::VegetationYearSummary;
 use forefield_engine::{Grid, LoadError};
 use serde::Serialize;
 use wasm_bindgen::prelude::*;
@@ -67,6 +73,13 @@ struct TimelineInfo {
     last_year: i32,
     keyframe_interval: u32,
     memory_bytes: usize,
+    /// Bytes of the memory figure that hold stages, covers and soil.
+    plant_memory_bytes: usize,
+    /// Plant types recorded (empty for an ice-only run).
+    type_names: Vec<String>,
+    /// Years between stage keyframes and between cover keyframes (runs with plants).
+    stage_keyframe_interval: Option<u32>,
+    cover_keyframe_interval: Option<u32>,
 }
 
 /// One cell through the recorded years.
@@ -79,6 +92,14 @@ struct CellHistory {
     /// Latest year the cell became ice-free by the last year, if it did.
     exposure_year: Option<i32>,
     covered_at_start: bool,
+    /// Succession stage per year (runs with plants; empty otherwise).
+    stage: Vec<u8>,
+    /// Cover per type (outer) and year (inner), fraction, as drawn on the map.
+    cover: Vec<Vec<f32>>,
+    /// Soil development index per year, as drawn.
+    soil: Vec<f32>,
+    /// Years that hold a cover keyframe (the others are interpolated).
+    cover_keyframe_years: Vec<i32>,
 }
 
 /// Everything the page has loaded, held in wasm memory behind one handle.
@@ -276,6 +297,10 @@ impl Workspace {
             last_year: timeline.last_year(),
             keyframe_interval: timeline.keyframe_interval(),
             memory_bytes: timeline.memory_bytes(),
+            plant_memory_bytes: timeline.plant_memory_bytes(),
+            type_names: timeline.type_names().to_vec(),
+            stage_keyframe_interval: timeline.plant_intervals().map(|i| i.0),
+            cover_keyframe_interval: timeline.plant_intervals().map(|i| i.1),
         };
         self.timeline = Some(LoadedTimeline { timeline, renderer });
         to_js(&info)
@@ -286,7 +311,8 @@ impl Workspace {
         self.timeline.is_some()
     }
 
-    /// Fills the RGBA image with `layer` ("ice_thickness", "exposure_year") at `year`.
+    /// Fills the RGBA image with `layer` at `year`: "ice_thickness", "exposure_year", and for
+    /// runs with plants "stage", "cover:<type index>" and "soil".
     #[wasm_bindgen(js_name = renderLayer)]
     pub fn render_layer(&mut self, layer: &str, year: i32) -> Result<(), JsError> {
         let kind = layer_kind(layer)?;
@@ -294,6 +320,7 @@ impl Workspace {
             .timeline
             .as_mut()
             .ok_or_else(|| JsError::new("no run has been made yet"))?;
+        check_layer(&loaded.timeline, kind)?;
         loaded
             .renderer
             .render(&loaded.timeline, kind, year, &mut self.image_rgba);
@@ -308,6 +335,7 @@ impl Workspace {
             .timeline
             .as_ref()
             .ok_or_else(|| JsError::new("no run has been made yet"))?;
+        check_layer(&loaded.timeline, kind)?;
         to_js(&layers::legend(&loaded.timeline, kind))
     }
 
@@ -328,6 +356,20 @@ impl Workspace {
             .iter()
             .map(|&y| timeline.ice_thickness_at(idx, y))
             .collect();
+        let series = |quantity| -> Vec<f32> {
+            years
+                .iter()
+                .map(|&y| timeline.plant_value_at(idx, y, quantity).unwrap_or(0.0))
+                .collect()
+        };
+        let cover = (0..timeline.type_names().len())
+            .map(|t| series(PlantQuantity::Cover(t)))
+            .collect();
+        let soil = if timeline.has_plants() {
+            series(PlantQuantity::Soil)
+        } else {
+            Vec::new()
+        };
         to_js(&CellHistory {
             col,
             row,
@@ -335,7 +377,29 @@ impl Workspace {
             ice_thickness_m,
             exposure_year: timeline.cover_at(idx, timeline.last_year()).1,
             covered_at_start: timeline.covered_at_start(idx),
+            stage: if timeline.has_plants() {
+                timeline.stage_history(idx)
+            } else {
+                Vec::new()
+            },
+            cover,
+            soil,
+            cover_keyframe_years: timeline.cover_keyframe_years(),
         })
+    }
+}
+
+/// A plant layer asked of a run without plants, or a type the run does not have.
+fn check_layer(timeline: &Timeline, kind: LayerKind) -> Result<(), JsError> {
+    match kind {
+        LayerKind::Stage | LayerKind::Soil | LayerKind::Cover(_) if !timeline.has_plants() => Err(
+            JsError::new("this run has no plants; run with plants to see plant layers"),
+        ),
+        LayerKind::Cover(t) if t >= timeline.type_names().len() => Err(JsError::new(&format!(
+            "plant type {t} out of range (the run has {})",
+            timeline.type_names().len()
+        ))),
+        _ => Ok(()),
     }
 }
 
@@ -453,16 +517,59 @@ impl IceRun {
     }
 }
 
+/// The simulation a [`RunRecorder`] drives: ice alone, or ice and plants.
+enum RecordedSimulation {
+    Ice(Box<IceSimulation>),
+    Coupled(Box<CoupledSimulation>),
+}
+
+impl RecordedSimulation {
+    fn ice(&self) -> &IceSimulation {
+        match self {
+            RecordedSimulation::Ice(ice) => ice,
+            RecordedSimulation::Coupled(coupled) => coupled.ice(),
+        }
+    }
+}
+
+/// One yearly summary row as the page reads it: the ice fields, and `vegetation` for runs
+/// with plants.
+#[derive(Serialize)]
+struct RecordedRow {
+    #[serde(flatten)]
+    ice: YearSummary,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    vegetation: Option<VegetationYearSummary>,
+}
+
+/// The covers of every plant type of a coupled run, as slices.
+fn covers_of(coupled: &CoupledSimulation) -> Vec<&[f32]> {
+    (0..coupled.vegetation().n_types())
+        .map(|t| coupled.cover_of(t))
+        .collect()
+}
+
 /// A run recorded year by year into a timeline: what the page's worker drives.
 #[wasm_bindgen]
 pub struct RunRecorder {
-    run: IceRun,
+    simulation: RecordedSimulation,
     recorder: Option<TimelineRecorder>,
+    rows: Vec<RecordedRow>,
+}
+
+fn ice_recorder(simulation: &IceSimulation) -> TimelineRecorder {
+    TimelineRecorder::new(
+        simulation.geometry().n_cols,
+        simulation.start_year(),
+        (simulation.end_year() - simulation.start_year()) as u32,
+        simulation.ice_thickness_m(),
+        DEFAULT_FRAME_BUDGET_BYTES,
+    )
 }
 
 #[wasm_bindgen]
 impl RunRecorder {
-    /// As [`IceRun::new`]; the timeline starts from the initial ice.
+    /// An ice-only run, as [`IceRun::new`]; the timeline starts from the initial ice.
     #[wasm_bindgen(constructor)]
     pub fn new(
         scenario_json: &str,
@@ -478,17 +585,74 @@ impl RunRecorder {
             ice_bytes,
             ice_name,
         )?;
-        let simulation = &run.simulation;
-        let recorder = TimelineRecorder::new(
-            simulation.geometry().n_cols,
-            simulation.start_year(),
-            (simulation.end_year() - simulation.start_year()) as u32,
-            simulation.ice_thickness_m(),
-            DEFAULT_FRAME_BUDGET_BYTES,
-        );
+        let recorder = ice_recorder(&run.simulation);
+        let rows = vec![RecordedRow {
+            ice: run.simulation.summary()[0],
+            vegetation: None,
+        }];
         Ok(RunRecorder {
-            run,
+            simulation: RecordedSimulation::Ice(Box::new(run.simulation)),
             recorder: Some(recorder),
+            rows,
+        })
+    }
+
+    /// A coupled run of ice and plants (the scenario's `vegetation` block), starting from a
+    /// grid of succession stage codes 0-6 when `vegetation_bytes` is given, else from each
+    /// cell's potential vegetation. The timeline keeps stages, covers and soil too.
+    #[wasm_bindgen(js_name = withPlants)]
+    #[allow(clippy::too_many_arguments)]
+    pub fn with_plants(
+        scenario_json: &str,
+        surface_bytes: &[u8],
+        surface_name: &str,
+        ice_bytes: &[u8],
+        ice_name: &str,
+        vegetation_bytes: Option<Vec<u8>>,
+        vegetation_name: Option<String>,
+    ) -> Result<RunRecorder, JsError> {
+        let scenario = Scenario::from_json(scenario_json)
+            .map_err(|e| JsError::new(&format!("scenario: {e}")))?;
+        let surface = read_geotiff(surface_bytes, surface_name).map_err(to_js_error)?;
+        let ice = read_geotiff(ice_bytes, ice_name).map_err(to_js_error)?;
+        let stages = match vegetation_bytes {
+            Some(bytes) => {
+                let name = vegetation_name.unwrap_or_else(|| "vegetation grid".to_string());
+                let grid = read_geotiff(&bytes, &name).map_err(to_js_error)?;
+                if !grid.geometry.aligns_with(&surface.geometry) {
+                    return Err(JsError::new(&format!(
+                        "{name}: does not line up with {surface_name} (size, corner, cell size or CRS differ)"
+                    )));
+                }
+                Some(grid)
+            }
+            None => None,
+        };
+        let bed = bed_from_surface(&surface, &ice).map_err(|e| JsError::new(&e.to_string()))?;
+        let coupled = CoupledSimulation::new(&bed, &ice, &scenario, stages.as_ref())
+            .map_err(|e| JsError::new(&e.to_string()))?;
+        let names = scenario
+            .vegetation
+            .types
+            .iter()
+            .map(|t| t.name.clone())
+            .collect();
+        let recorder = ice_recorder(coupled.ice()).with_plants(
+            names,
+            coupled.stage(),
+            &covers_of(&coupled),
+            coupled.soil(),
+            DEFAULT_STAGE_BUDGET_BYTES,
+            DEFAULT_COVER_BUDGET_BYTES,
+        );
+        let start = coupled.start_summary();
+        Ok(RunRecorder {
+            simulation: RecordedSimulation::Coupled(Box::new(coupled)),
+            recorder: Some(recorder),
+            rows: vec![RecordedRow {
+                ice: start.ice,
+                vegetation: Some(start.vegetation),
+            }],
         })
     }
 
@@ -498,32 +662,56 @@ impl RunRecorder {
         let Some(recorder) = self.recorder.as_mut() else {
             return Ok(JsValue::NULL);
         };
-        match self.run.simulation.step_year() {
-            Some(row) => {
-                recorder.record_year(row.year, self.run.simulation.ice_thickness_m());
-                to_js(&row)
+        let row = match &mut self.simulation {
+            RecordedSimulation::Ice(ice) => {
+                let Some(row) = ice.step_year() else {
+                    return Ok(JsValue::NULL);
+                };
+                recorder.record_year(row.year, ice.ice_thickness_m());
+                RecordedRow {
+                    ice: row,
+                    vegetation: None,
+                }
             }
-            None => Ok(JsValue::NULL),
-        }
+            RecordedSimulation::Coupled(coupled) => {
+                let Some(row) = coupled.step_year() else {
+                    return Ok(JsValue::NULL);
+                };
+                recorder.record_year(row.ice.year, coupled.ice().ice_thickness_m());
+                recorder.record_plants(
+                    row.ice.year,
+                    coupled.stage(),
+                    &covers_of(coupled),
+                    coupled.soil(),
+                );
+                RecordedRow {
+                    ice: row.ice,
+                    vegetation: Some(row.vegetation),
+                }
+            }
+        };
+        let out = to_js(&row);
+        self.rows.push(row);
+        out
     }
 
     pub fn year(&self) -> i32 {
-        self.run.year()
+        self.simulation.ice().year()
     }
 
     #[wasm_bindgen(js_name = startYear)]
     pub fn start_year(&self) -> i32 {
-        self.run.simulation.start_year()
+        self.simulation.ice().start_year()
     }
 
     #[wasm_bindgen(js_name = endYear)]
     pub fn end_year(&self) -> i32 {
-        self.run.end_year()
+        self.simulation.ice().end_year()
     }
 
-    /// Summary rows so far (start state first).
+    /// Summary rows so far (start state first); rows of runs with plants carry `vegetation`.
     pub fn summary(&self) -> Result<JsValue, JsError> {
-        self.run.summary()
+        to_js(&self.rows)
     }
 
     /// Ends recording and returns the timeline as bytes (for `Workspace.loadTimeline`).
@@ -532,9 +720,15 @@ impl RunRecorder {
             .recorder
             .take()
             .ok_or_else(|| JsError::new("this run has already been finished"))?;
-        Ok(recorder
-            .finish(self.run.simulation.ice_thickness_m())
-            .to_bytes())
+        let timeline = match &self.simulation {
+            RecordedSimulation::Ice(ice) => recorder.finish(ice.ice_thickness_m()),
+            RecordedSimulation::Coupled(coupled) => recorder.finish_with_plants(
+                coupled.ice().ice_thickness_m(),
+                &covers_of(coupled),
+                coupled.soil(),
+            ),
+        };
+        Ok(timeline.to_bytes())
     }
 }
 
@@ -601,5 +795,40 @@ impl CoupledRun {
     #[wasm_bindgen(js_name = nCells)]
     pub fn n_cells(&self) -> usize {
         self.simulation.ice().geometry().n_cells()
+    }
+}
+
+/// Layers of a coupled run, read as views into wasm memory (the engine's own numbers, for
+/// checking what a timeline shows).
+#[wasm_bindgen]
+impl CoupledRun {
+    /// Address of the `u8` succession-stage layer, `nCells()` long.
+    #[wasm_bindgen(js_name = stagePtr)]
+    pub fn stage_ptr(&self) -> *const u8 {
+        self.simulation.stage().as_ptr()
+    }
+
+    /// Number of plant types.
+    #[wasm_bindgen(js_name = nTypes)]
+    pub fn n_types(&self) -> usize {
+        self.simulation.vegetation().n_types()
+    }
+
+    /// Address of the `f32` cover layer of type `type_idx` (fraction), `nCells()` long.
+    #[wasm_bindgen(js_name = coverPtr)]
+    pub fn cover_ptr(&self, type_idx: usize) -> Result<*const f32, JsError> {
+        if type_idx >= self.n_types() {
+            return Err(JsError::new(&format!(
+                "plant type {type_idx} out of range (the run has {})",
+                self.n_types()
+            )));
+        }
+        Ok(self.simulation.cover_of(type_idx).as_ptr())
+    }
+
+    /// Address of the `f32` soil-index layer, `nCells()` long.
+    #[wasm_bindgen(js_name = soilPtr)]
+    pub fn soil_ptr(&self) -> *const f32 {
+        self.simulation.soil().as_ptr()
     }
 }
