@@ -177,8 +177,11 @@ export class MultiChart {
     ctx.setTransform(ratio, 0, 0, ratio, 0, 0);
     ctx.clearRect(0, 0, rect.width, rect.height);
     const { title, unit, stacked = false, decimals = 1 } = this.options;
-    // The key takes one row per three series under the plot.
-    const keyRows = Math.ceil(this.series.length / 3);
+    // The key under the plot: as many columns as the longest name allows, up to three.
+    ctx.font = '12px system-ui, sans-serif';
+    const longest = Math.max(0, ...this.series.map((s) => ctx.measureText(s.label).width));
+    const keyColumns = Math.max(1, Math.min(3, Math.floor((rect.width - 8) / (longest + 22))));
+    const keyRows = Math.ceil(this.series.length / keyColumns);
     this.plot = { left: 46, top: 20, width: Math.max(10, rect.width - 58), height: Math.max(10, rect.height - 40 - 16 * keyRows) };
     const { left, top, width, height } = this.plot;
     ctx.font = '12px system-ui, sans-serif';
@@ -241,13 +244,13 @@ export class MultiChart {
         ctx.lineWidth = 1;
       }
     });
-    // Key: swatch and name, three to a row.
+    // Key: swatch and name.
     ctx.textAlign = 'left';
     ctx.textBaseline = 'middle';
-    const colWidth = (rect.width - 8) / 3;
+    const colWidth = (rect.width - 8) / keyColumns;
     this.series.forEach((s, k) => {
-      const x = 4 + (k % 3) * colWidth;
-      const y = top + height + 26 + Math.floor(k / 3) * 16;
+      const x = 4 + (k % keyColumns) * colWidth;
+      const y = top + height + 26 + Math.floor(k / keyColumns) * 16;
       ctx.fillStyle = s.colour;
       ctx.fillRect(x, y - 5, 12, 10);
       ctx.strokeStyle = '#8c9896';

@@ -533,6 +533,32 @@ async function boot() {
     },
   };
 
+  /** The last run's scenario stepped here through the engine's own CoupledRun (not the
+   *  worker, not the timeline): stage, cover of each type and soil of one cell every year. */
+  window.forefield.engineCoupledSeries = (col, row) => {
+    const { scenarioJson, surface: s, ice: i, vegetation: v } = lastRun;
+    const run = new engine.CoupledRun(scenarioJson, s.bytes, s.name, i.bytes, i.name, v.bytes, v.name);
+    try {
+      const idx = row * info.n_cols + col;
+      const n = run.nCells();
+      const years = [];
+      const stage = [];
+      const cover = Array.from({ length: run.nTypes() }, () => []);
+      const soil = [];
+      const sample = () => {
+        years.push(run.year());
+        stage.push(new Uint8Array(wasm.memory.buffer, run.stagePtr(), n)[idx]);
+        cover.forEach((series, t) => series.push(new Float32Array(wasm.memory.buffer, run.coverPtr(t), n)[idx]));
+        soil.push(new Float32Array(wasm.memory.buffer, run.soilPtr(), n)[idx]);
+      };
+      sample();
+      while (run.stepYears(1) > 0) sample();
+      return { years, stage, cover, soil, summary: run.summary() };
+    } finally {
+      run.free();
+    }
+  };
+
   mapMessage.textContent = 'Loading the sample valley…';
   try {
     loadBytes(await fetchBytes(SAMPLE_URL), SAMPLE_NAME);
