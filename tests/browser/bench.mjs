@@ -124,7 +124,10 @@ try {
     const fetchBytes = async (name) => new Uint8Array(await (await fetch(`/bench-grids/${name}`)).arrayBuffer());
     const surface = await fetchBytes('valley_dem.tif');
     const ice = await fetchBytes('valley_ice_thickness.tif');
-    const recorder = new wasm.RunRecorder(scenario, surface, 'valley_dem.tif', ice, 'valley_ice_thickness.tif');
+    const stages = await fetchBytes('valley_vegetation.tif');
+    // Recorded with plants, as the page's worker records, so the stage layer can be drawn.
+    const recorder = wasm.RunRecorder.withPlants(scenario, surface, 'valley_dem.tif', ice,
+      'valley_ice_thickness.tif', stages, 'valley_vegetation.tif');
     while (recorder.stepYear() !== null) { /* all years */ }
     const bytes = recorder.finish();
     recorder.free();
@@ -143,7 +146,7 @@ try {
       return timeline.start_year + (state % span);
     });
     const result = {};
-    for (const layer of ['ice_thickness', 'exposure_year']) {
+    for (const layer of ['ice_thickness', 'exposure_year', 'stage']) {
       // One untimed draw first, as the page has always drawn a layer once before a scrub.
       workspace.renderLayer(layer, timeline.last_year);
       const ms = [];
@@ -175,8 +178,14 @@ try {
     exposure_year_ms_median: Number(scrub.result.exposure_year.median.toFixed(2)),
     exposure_year_ms_worst: Number(scrub.result.exposure_year.worst.toFixed(2)),
     exposure_year_engine_ms_median: Number(scrub.result.exposure_year.engineMedian.toFixed(2)),
+    stage_ms_median: Number(scrub.result.stage.median.toFixed(2)),
+    stage_ms_worst: Number(scrub.result.stage.worst.toFixed(2)),
+    stage_engine_ms_median: Number(scrub.result.stage.engineMedian.toFixed(2)),
     timeline_keyframe_interval_years: scrub.timeline.keyframe_interval,
+    timeline_stage_keyframe_interval_years: scrub.timeline.stage_keyframe_interval,
+    timeline_cover_keyframe_interval_years: scrub.timeline.cover_keyframe_interval,
     timeline_mib: Number((scrub.timeline.memory_bytes / 2 ** 20).toFixed(2)),
+    timeline_plant_mib: Number((scrub.timeline.plant_memory_bytes / 2 ** 20).toFixed(2)),
   }));
 } finally {
   await browser.close();
