@@ -353,25 +353,8 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::render::cie_lightness as lightness;
     use crate::timeline::{TimelineRecorder, DEFAULT_FRAME_BUDGET_BYTES};
-
-    /// CIE L* of an sRGB colour (IEC 61966-2-1 transfer, D65 white; CIE 15:2004).
-    fn lightness(rgb: [u8; 3]) -> f64 {
-        let lin = |c: u8| {
-            let c = f64::from(c) / 255.0;
-            if c <= 0.04045 {
-                c / 12.92
-            } else {
-                ((c + 0.055) / 1.055).powf(2.4)
-            }
-        };
-        let y = 0.2126 * lin(rgb[0]) + 0.7152 * lin(rgb[1]) + 0.0722 * lin(rgb[2]);
-        if y > 216.0 / 24389.0 {
-            116.0 * y.cbrt() - 16.0
-        } else {
-            y * 24389.0 / 27.0
-        }
-    }
 
     fn check_monotonic(ramp: ColorRamp, rising: bool) {
         let mut last = if rising { -1.0 } else { 101.0 };

@@ -136,27 +136,30 @@ pub fn encode_png(rgba: &[u8], width: usize, height: usize) -> Result<Vec<u8>, P
     Ok(out.into_inner())
 }
 
+/// CIE L* of an sRGB colour (IEC 61966-2-1 transfer, D65 white; CIE 15:2004), for checking
+/// that ramps rise in lightness.
+#[cfg(test)]
+pub(crate) fn cie_lightness(rgb: [u8; 3]) -> f64 {
+    let lin = |c: u8| {
+        let c = f64::from(c) / 255.0;
+        if c <= 0.04045 {
+            c / 12.92
+        } else {
+            ((c + 0.055) / 1.055).powf(2.4)
+        }
+    };
+    let y = 0.2126 * lin(rgb[0]) + 0.7152 * lin(rgb[1]) + 0.0722 * lin(rgb[2]);
+    if y > 216.0 / 24389.0 {
+        116.0 * y.cbrt() - 16.0
+    } else {
+        y * 24389.0 / 27.0
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    /// CIE L* of an sRGB colour (IEC 61966-2-1 transfer, D65 white; CIE 15:2004).
-    fn lightness(rgb: [u8; 3]) -> f64 {
-        let lin = |c: u8| {
-            let c = f64::from(c) / 255.0;
-            if c <= 0.04045 {
-                c / 12.92
-            } else {
-                ((c + 0.055) / 1.055).powf(2.4)
-            }
-        };
-        let y = 0.2126 * lin(rgb[0]) + 0.7152 * lin(rgb[1]) + 0.0722 * lin(rgb[2]);
-        if y > 216.0 / 24389.0 {
-            116.0 * y.cbrt() - 16.0
-        } else {
-            y * 24389.0 / 27.0
-        }
-    }
+    use crate::render::cie_lightness as lightness;
 
     #[test]
     fn elevation_ramp_lightness_rises_monotonically() {

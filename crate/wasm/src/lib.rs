@@ -436,6 +436,35 @@ pub fn check_scenario(json: &str) -> Result<JsValue, JsError> {
     }
 }
 
+/// What every run starts from: the checked scenario, the surface, the bed under the ice and
+/// the ice itself.
+struct RunInputs {
+    scenario: Scenario,
+    surface: Grid,
+    bed: Grid,
+    ice: Grid,
+}
+
+fn read_run_inputs(
+    scenario_json: &str,
+    surface_bytes: &[u8],
+    surface_name: &str,
+    ice_bytes: &[u8],
+    ice_name: &str,
+) -> Result<RunInputs, JsError> {
+    let scenario =
+        Scenario::from_json(scenario_json).map_err(|e| JsError::new(&format!("scenario: {e}")))?;
+    let surface = read_geotiff(surface_bytes, surface_name).map_err(to_js_error)?;
+    let ice = read_geotiff(ice_bytes, ice_name).map_err(to_js_error)?;
+    let bed = bed_from_surface(&surface, &ice).map_err(|e| JsError::new(&e.to_string()))?;
+    Ok(RunInputs {
+        scenario,
+        surface,
+        bed,
+        ice,
+    })
+}
+
 fn to_js<T: Serialize>(value: &T) -> Result<JsValue, JsError> {
     value
         .serialize(&serde_wasm_bindgen::Serializer::json_compatible())
@@ -464,11 +493,18 @@ impl IceRun {
         ice_bytes: &[u8],
         ice_name: &str,
     ) -> Result<IceRun, JsError> {
-        let scenario = Scenario::from_json(scenario_json)
-            .map_err(|e| JsError::new(&format!("scenario: {e}")))?;
-        let surface = read_geotiff(surface_bytes, surface_name).map_err(to_js_error)?;
-        let ice = read_geotiff(ice_bytes, ice_name).map_err(to_js_error)?;
-        let bed = bed_from_surface(&surface, &ice).map_err(|e| JsError::new(&e.to_string()))?;
+        let RunInputs {
+            scenario,
+            surface: _,
+            bed,
+            ice,
+        } = read_run_inputs(
+            scenario_json,
+            surface_bytes,
+            surface_name,
+            ice_bytes,
+            ice_name,
+        )?;
         let simulation =
             IceSimulation::new(&bed, &ice, &scenario).map_err(|e| JsError::new(&e.to_string()))?;
         Ok(IceRun { simulation })
@@ -611,10 +647,18 @@ impl RunRecorder {
         vegetation_bytes: Option<Vec<u8>>,
         vegetation_name: Option<String>,
     ) -> Result<RunRecorder, JsError> {
-        let scenario = Scenario::from_json(scenario_json)
-            .map_err(|e| JsError::new(&format!("scenario: {e}")))?;
-        let surface = read_geotiff(surface_bytes, surface_name).map_err(to_js_error)?;
-        let ice = read_geotiff(ice_bytes, ice_name).map_err(to_js_error)?;
+        let RunInputs {
+            scenario,
+            surface,
+            bed,
+            ice,
+        } = read_run_inputs(
+            scenario_json,
+            surface_bytes,
+            surface_name,
+            ice_bytes,
+            ice_name,
+        )?;
         let stages = match vegetation_bytes {
             Some(bytes) => {
                 let name = vegetation_name.unwrap_or_else(|| "vegetation grid".to_string());
@@ -628,7 +672,6 @@ impl RunRecorder {
             }
             None => None,
         };
-        let bed = bed_from_surface(&surface, &ice).map_err(|e| JsError::new(&e.to_string()))?;
         let coupled = CoupledSimulation::new(&bed, &ice, &scenario, stages.as_ref())
             .map_err(|e| JsError::new(&e.to_string()))?;
         let names = scenario
@@ -755,12 +798,19 @@ impl CoupledRun {
         vegetation_bytes: &[u8],
         vegetation_name: &str,
     ) -> Result<CoupledRun, JsError> {
-        let scenario = Scenario::from_json(scenario_json)
-            .map_err(|e| JsError::new(&format!("scenario: {e}")))?;
-        let surface = read_geotiff(surface_bytes, surface_name).map_err(to_js_error)?;
-        let ice = read_geotiff(ice_bytes, ice_name).map_err(to_js_error)?;
+        let RunInputs {
+            scenario,
+            surface: _,
+            bed,
+            ice,
+        } = read_run_inputs(
+            scenario_json,
+            surface_bytes,
+            surface_name,
+            ice_bytes,
+            ice_name,
+        )?;
         let stages = read_geotiff(vegetation_bytes, vegetation_name).map_err(to_js_error)?;
-        let bed = bed_from_surface(&surface, &ice).map_err(|e| JsError::new(&e.to_string()))?;
         let simulation =
             forefield_engine::coupled::CoupledSimulation::new(&bed, &ice, &scenario, Some(&stages))
                 .map_err(|e| JsError::new(&e.to_string()))?;
