@@ -20,6 +20,7 @@ pub mod load_error;
 pub mod mass_balance;
 pub mod outline;
 pub mod pft;
+pub mod recorded_run;
 pub mod render;
 pub mod sample;
 pub mod scenario;

@@ -3,20 +3,15 @@
 
 mod schema;
 
-use forefield_engine::coupled::CoupledSimulation;
 use forefield_engine::geotiff::read_geotiff;
 use forefield_engine::heightmap_png::read_heightmap_png;
 use forefield_engine::layers::{self, LayerKind, LayerRenderer};
 use forefield_engine::render::{render_shaded, Legend, ELEVATION_RAMP};
 use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::YearSummary;
+use forefield_engine::recorded_run::RecordedRun;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation};
 use forefield_engine::terrain::{self, Sun, TerrainDerivatives};
-use forefield_engine::timeline::{
-    PlantQuantity, Timeline, TimelineRecorder, DEFAULT_COVER_BUDGET_BYTES,
-    DEFAULT_FRAME_BUDGET_BYTES, DEFAULT_STAGE_BUDGET_BYTES,
-};
-use forefield_engine::vegetation::VegetationYearSummary;
+use forefield_engine::timeline::{PlantQuantity, Timeline};
 use forefield_engine::{Grid, LoadError};
 use serde::Serialize;
 use wasm_bindgen::prelude::*;
@@ -553,54 +548,11 @@ impl IceRun {
     }
 }
 
-/// The simulation a [`RunRecorder`] drives: ice alone, or ice and plants.
-enum RecordedSimulation {
-    Ice(Box<IceSimulation>),
-    Coupled(Box<CoupledSimulation>),
-}
-
-impl RecordedSimulation {
-    fn ice(&self) -> &IceSimulation {
-        match self {
-            RecordedSimulation::Ice(ice) => ice,
-            RecordedSimulation::Coupled(coupled) => coupled.ice(),
-        }
-    }
-}
-
-/// One yearly summary row as the page reads it: the ice fields, and `vegetation` for runs
-/// with plants.
-#[derive(Serialize)]
-struct RecordedRow {
-    #[serde(flatten)]
-    ice: YearSummary,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    vegetation: Option<VegetationYearSummary>,
-}
-
-/// The covers of every plant type of a coupled run, as slices.
-fn covers_of(coupled: &CoupledSimulation) -> Vec<&[f32]> {
-    (0..coupled.vegetation().n_types())
-        .map(|t| coupled.cover_of(t))
-        .collect()
-}
-
-/// A run recorded year by year into a timeline: what the page's worker drives.
+/// A run recorded year by year into a timeline: what the page's worker drives. A thin
+/// handle over the engine's [`RecordedRun`], which the command line drives too.
 #[wasm_bindgen]
 pub struct RunRecorder {
-    simulation: RecordedSimulation,
-    recorder: Option<TimelineRecorder>,
-    rows: Vec<RecordedRow>,
-}
-
-fn ice_recorder(simulation: &IceSimulation) -> TimelineRecorder {
-    TimelineRecorder::new(
-        simulation.geometry().n_cols,
-        simulation.start_year(),
-        (simulation.end_year() - simulation.start_year()) as u32,
-        simulation.ice_thickness_m(),
-        DEFAULT_FRAME_BUDGET_BYTES,
-    )
+    run: RecordedRun,
 }
 
 #[wasm_bindgen]
@@ -614,23 +566,21 @@ impl RunRecorder {
         ice_bytes: &[u8],
         ice_name: &str,
     ) -> Result<RunRecorder, JsError> {
-        let run = IceRun::new(
+        let RunInputs {
+            scenario,
+            surface: _,
+            bed,
+            ice,
+        } = read_run_inputs(
             scenario_json,
             surface_bytes,
             surface_name,
             ice_bytes,
             ice_name,
         )?;
-        let recorder = ice_recorder(&run.simulation);
-        let rows = vec![RecordedRow {
-            ice: run.simulation.summary()[0],
-            vegetation: None,
-        }];
-        Ok(RunRecorder {
-            simulation: RecordedSimulation::Ice(Box::new(run.simulation)),
-            recorder: Some(recorder),
-            rows,
-        })
+        let run = RecordedRun::ice_only(&bed, &ice, &scenario)
+            .map_err(|e| JsError::new(&e.to_string()))?;
+        Ok(RunRecorder { run })
     }
 
     /// A coupled run of ice and plants (the scenario's `vegetation` block), starting from a
@@ -672,105 +622,45 @@ impl RunRecorder {
             }
             None => None,
         };
-        let coupled = CoupledSimulation::new(&bed, &ice, &scenario, stages.as_ref())
+        let run = RecordedRun::with_plants(&bed, &ice, &scenario, stages.as_ref())
             .map_err(|e| JsError::new(&e.to_string()))?;
-        let names = scenario
-            .vegetation
-            .types
-            .iter()
-            .map(|t| t.name.clone())
-            .collect();
-        let recorder = ice_recorder(coupled.ice()).with_plants(
-            names,
-            coupled.stage(),
-            &covers_of(&coupled),
-            coupled.soil(),
-            DEFAULT_STAGE_BUDGET_BYTES,
-            DEFAULT_COVER_BUDGET_BYTES,
-        );
-        let start = coupled.start_summary();
-        Ok(RunRecorder {
-            simulation: RecordedSimulation::Coupled(Box::new(coupled)),
-            recorder: Some(recorder),
-            rows: vec![RecordedRow {
-                ice: start.ice,
-                vegetation: Some(start.vegetation),
-            }],
-        })
+        Ok(RunRecorder { run })
     }
 
     /// Simulates and records the next year; returns its summary row, or `null` when done.
     #[wasm_bindgen(js_name = stepYear)]
     pub fn step_year(&mut self) -> Result<JsValue, JsError> {
-        let Some(recorder) = self.recorder.as_mut() else {
-            return Ok(JsValue::NULL);
-        };
-        let row = match &mut self.simulation {
-            RecordedSimulation::Ice(ice) => {
-                let Some(row) = ice.step_year() else {
-                    return Ok(JsValue::NULL);
-                };
-                recorder.record_year(row.year, ice.ice_thickness_m());
-                RecordedRow {
-                    ice: row,
-                    vegetation: None,
-                }
-            }
-            RecordedSimulation::Coupled(coupled) => {
-                let Some(row) = coupled.step_year() else {
-                    return Ok(JsValue::NULL);
-                };
-                recorder.record_year(row.ice.year, coupled.ice().ice_thickness_m());
-                recorder.record_plants(
-                    row.ice.year,
-                    coupled.stage(),
-                    &covers_of(coupled),
-                    coupled.soil(),
-                );
-                RecordedRow {
-                    ice: row.ice,
-                    vegetation: Some(row.vegetation),
-                }
-            }
-        };
-        let out = to_js(&row);
-        self.rows.push(row);
-        out
+        match self.run.step_year() {
+            Some(row) => to_js(&row),
+            None => Ok(JsValue::NULL),
+        }
     }
 
     pub fn year(&self) -> i32 {
-        self.simulation.ice().year()
+        self.run.year()
     }
 
     #[wasm_bindgen(js_name = startYear)]
     pub fn start_year(&self) -> i32 {
-        self.simulation.ice().start_year()
+        self.run.start_year()
     }
 
     #[wasm_bindgen(js_name = endYear)]
     pub fn end_year(&self) -> i32 {
-        self.simulation.ice().end_year()
+        self.run.end_year()
     }
 
     /// Summary rows so far (start state first); rows of runs with plants carry `vegetation`.
     pub fn summary(&self) -> Result<JsValue, JsError> {
-        to_js(&self.rows)
+        to_js(&self.run.rows())
     }
 
     /// Ends recording and returns the timeline as bytes (for `Workspace.loadTimeline`).
     pub fn finish(&mut self) -> Result<Vec<u8>, JsError> {
-        let recorder = self
-            .recorder
-            .take()
-            .ok_or_else(|| JsError::new("this run has already been finished"))?;
-        let timeline = match &self.simulation {
-            RecordedSimulation::Ice(ice) => recorder.finish(ice.ice_thickness_m()),
-            RecordedSimulation::Coupled(coupled) => recorder.finish_with_plants(
-                coupled.ice().ice_thickness_m(),
-                &covers_of(coupled),
-                coupled.soil(),
-            ),
-        };
+        let timeline = self
+            .run
+            .finish()
+            .map_err(|e| JsError::new(&e.to_string()))?;
         Ok(timeline.to_bytes())
     }
 }
