@@ -184,10 +184,12 @@ impl ClimateTrajectory {
             .volcanic_pulses
             .iter()
             .filter(|pulse| year >= pulse.year)
-            .map(|pulse| -pulse.peak_cooling_k * (-(year - pulse.year) / pulse.decay_years).exp())
+            .map(|pulse| {
+                -pulse.peak_cooling_k * libm::exp(-(year - pulse.year) / pulse.decay_years)
+            })
             .sum();
         let phase = 2.0 * std::f64::consts::PI * (year - p.solar_max_year) / SOLAR_CYCLE_YEARS;
-        let solar = p.solar_cycle_amplitude_k * phase.cos();
+        let solar = p.solar_cycle_amplitude_k * libm::cos(phase);
         trend + table_value(&p.anomaly_table, year) + pulses + solar
     }
 }

@@ -114,12 +114,12 @@ impl Kernel {
         use std::f64::consts::PI;
         let s = self.scale_m;
         match self.family {
-            KernelFamily::NegativeExponential => (-r_m / s).exp() / (2.0 * PI * s * s),
-            KernelFamily::Gaussian => (-r_m * r_m / (2.0 * s * s)).exp() / (2.0 * PI * s * s),
+            KernelFamily::NegativeExponential => libm::exp(-r_m / s) / (2.0 * PI * s * s),
+            KernelFamily::Gaussian => libm::exp(-r_m * r_m / (2.0 * s * s)) / (2.0 * PI * s * s),
             KernelFamily::TwoDt => {
                 let u = s * s;
                 let p = self.shape_p;
-                p / (PI * u) * (1.0 + r_m * r_m / u).powf(-(p + 1.0))
+                p / (PI * u) * libm::pow(1.0 + r_m * r_m / u, -(p + 1.0))
             }
         }
     }
@@ -128,9 +128,9 @@ impl Kernel {
     pub fn tail_probability(&self, d_m: f64) -> f64 {
         let s = self.scale_m;
         match self.family {
-            KernelFamily::NegativeExponential => (1.0 + d_m / s) * (-d_m / s).exp(),
-            KernelFamily::Gaussian => (-d_m * d_m / (2.0 * s * s)).exp(),
-            KernelFamily::TwoDt => (1.0 + d_m * d_m / (s * s)).powf(-self.shape_p),
+            KernelFamily::NegativeExponential => (1.0 + d_m / s) * libm::exp(-d_m / s),
+            KernelFamily::Gaussian => libm::exp(-d_m * d_m / (2.0 * s * s)),
+            KernelFamily::TwoDt => libm::pow(1.0 + d_m * d_m / (s * s), -self.shape_p),
         }
     }
 
@@ -170,11 +170,13 @@ impl Kernel {
         let s = self.scale_m;
         match self.family {
             // The distance of a radial exponential is Gamma(2, a): a sum of two exponentials.
-            KernelFamily::NegativeExponential => -s * (uniform_open(rng) * uniform_open(rng)).ln(),
-            KernelFamily::Gaussian => s * (-2.0 * uniform_open(rng).ln()).sqrt(),
+            KernelFamily::NegativeExponential => {
+                -s * libm::log(uniform_open(rng) * uniform_open(rng))
+            }
+            KernelFamily::Gaussian => s * (-2.0 * libm::log(uniform_open(rng))).sqrt(),
             KernelFamily::TwoDt => {
                 let tail = uniform_open(rng);
-                s * (tail.powf(-1.0 / self.shape_p) - 1.0).max(0.0).sqrt()
+                s * (libm::pow(tail, -1.0 / self.shape_p) - 1.0).max(0.0).sqrt()
             }
         }
     }
@@ -187,7 +189,7 @@ pub fn uniform_open<R: Rng + ?Sized>(rng: &mut R) -> f64 {
 
 /// E[r] / sqrt(u) of the 2Dt kernel: (sqrt(pi) / 2) Gamma(p - 1/2) / Gamma(p).
 fn two_dt_mean_factor(p: f64) -> f64 {
-    std::f64::consts::PI.sqrt() / 2.0 * (ln_gamma(p - 0.5) - ln_gamma(p)).exp()
+    std::f64::consts::PI.sqrt() / 2.0 * libm::exp(ln_gamma(p - 0.5) - ln_gamma(p))
 }
 
 /// ln Gamma(x) for x > 0 (Lanczos approximation, g = 7, nine terms; relative error ~1e-15).
@@ -205,7 +207,7 @@ pub fn ln_gamma(x: f64) -> f64 {
     ];
     use std::f64::consts::PI;
     if x < 0.5 {
-        return (PI / (PI * x).sin()).ln() - ln_gamma(1.0 - x);
+        return libm::log(PI / libm::sin(PI * x)) - ln_gamma(1.0 - x);
     }
     let x = x - 1.0;
     let mut sum = COEFFICIENTS[0];
@@ -213,15 +215,15 @@ pub fn ln_gamma(x: f64) -> f64 {
         sum += c / (x + i as f64);
     }
     let t = x + 7.5;
-    0.5 * (2.0 * PI).ln() + (x + 0.5) * t.ln() - t + sum.ln()
+    0.5 * libm::log(2.0 * PI) + (x + 0.5) * libm::log(t) - t + libm::log(sum)
 }
 
 /// Nodes and weights of the trapezoid rule in y = ln x for x ~ Gamma(shape, 1).
 fn gamma_nodes(shape: f64, step: f64) -> Vec<(f64, f64)> {
-    let log_density = |y: f64| shape * y - y.exp();
-    let y_mode = shape.ln();
+    let log_density = |y: f64| shape * y - libm::exp(y);
+    let y_mode = libm::log(shape);
     let peak = log_density(y_mode);
-    let floor = peak + QUADRATURE_CUTOFF.ln();
+    let floor = peak + libm::log(QUADRATURE_CUTOFF);
     let mut nodes = Vec::new();
     let mut j = 0i32;
     loop {
@@ -241,10 +243,13 @@ fn gamma_nodes(shape: f64, step: f64) -> Vec<(f64, f64)> {
         nodes.push(y);
         j += 1;
     }
-    let total: f64 = nodes.iter().map(|&y| (log_density(y) - peak).exp()).sum();
+    let total: f64 = nodes
+        .iter()
+        .map(|&y| libm::exp(log_density(y) - peak))
+        .sum();
     nodes
         .into_iter()
-        .map(|y| ((log_density(y) - peak).exp() / total, y.exp()))
+        .map(|y| (libm::exp(log_density(y) - peak) / total, libm::exp(y)))
         .collect()
 }
 
@@ -257,7 +262,7 @@ fn erf(x: f64) -> f64 {
         * (0.254_829_592
             + t * (-0.284_496_736
                 + t * (1.421_413_741 + t * (-1.453_152_027 + t * 1.061_405_429))));
-    sign * (1.0 - poly * (-x * x).exp())
+    sign * (1.0 - poly * libm::exp(-x * x))
 }
 
 /// Cell-integrated 1-D Gaussian taps (sigma in cells), centre at index `radius`, summing to 1,

@@ -147,7 +147,8 @@ impl FlowConstants {
         sliding_pa3_m2_a: f64,
         time_step_fraction: f64,
     ) -> FlowConstants {
-        let rho_g_cubed = (ice_density_kg_m3 * gravity_m_s2).powi(3);
+        let rho_g = ice_density_kg_m3 * gravity_m_s2;
+        let rho_g_cubed = rho_g * rho_g * rho_g;
         FlowConstants {
             deformation_m3_a: 2.0 * rate_factor_pa3_a * rho_g_cubed / (GLEN_EXPONENT + 2.0),
             sliding_m_a: sliding_pa3_m2_a * rho_g_cubed,

@@ -82,7 +82,7 @@ impl PlasticityParams {
     pub fn thickness_for_slope_m(&self, slope_rad: f64, ice_density_kg_m3: f64) -> f64 {
         let alpha = slope_rad.max(self.min_slope_deg.to_radians());
         self.basal_shear_stress_pa
-            / (self.shape_factor * ice_density_kg_m3 * GRAVITY_M_S2 * alpha.sin())
+            / (self.shape_factor * ice_density_kg_m3 * GRAVITY_M_S2 * libm::sin(alpha))
     }
 }
 
@@ -113,7 +113,7 @@ pub struct OutlineEstimate {
 
 /// Volume-area scaling V = c A^gamma, with A in m^2 and V in m^3.
 pub fn scaling_volume_m3(area_m2: f64) -> f64 {
-    SCALING_COEFFICIENT_KM * (area_m2 / 1e6).powf(SCALING_EXPONENT) * 1e9
+    SCALING_COEFFICIENT_KM * libm::pow(area_m2 / 1e6, SCALING_EXPONENT) * 1e9
 }
 
 /// Estimates thickness inside `glacier_mask` (one flag per surface cell) from the surface,
@@ -156,7 +156,7 @@ pub fn thickness_from_outline(
                 / ((east - west).max(1) as f64 * dx);
             let dz_dy = (smoothed[south * n_cols + col] - smoothed[north * n_cols + col])
                 / ((south - north).max(1) as f64 * dx);
-            let slope = dz_dx.hypot(dz_dy).atan();
+            let slope = libm::atan(libm::hypot(dz_dx, dz_dy));
             let h = params.thickness_for_slope_m(slope, ice_density_kg_m3);
             thickness[idx] = h as f32;
             area_m2 += geometry.cell_area_m2();

@@ -3,6 +3,11 @@
 //! The engine knows nothing about the browser, files, the clock or unseeded randomness:
 //! inputs arrive as bytes or plain values, outputs leave as values or bytes. The wasm layer
 //! (`forefield-wasm`) and the command line (`forefield-cli`) are thin front ends over it.
+//!
+//! Transcendental functions (`exp`, `ln`, `pow`, trigonometry) come from the `libm` crate,
+//! never from `f32`/`f64` methods: those call the platform's C library natively and a Rust
+//! port in wasm, which may differ by an ulp, and the page and the command line must give the
+//! same bytes for the same scenario and seed. `sqrt` is correctly rounded everywhere and stays.
 
 pub mod climate;
 pub mod coupled;

@@ -93,15 +93,15 @@ const HEAD_V: f64 = 0.0;
 const BASIN_DEPTH_M: f64 = 110.0;
 
 fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
-    let centre_u = 0.5 + 0.07 * (2.6 * v + 0.4).sin();
+    let centre_u = 0.5 + 0.07 * libm::sin(2.6 * v + 0.4);
     let d = (u - centre_u).abs();
-    let floor = 2950.0 - 1550.0 * v.powf(0.85);
+    let floor = 2950.0 - 1550.0 * libm::pow(v, 0.85);
     let ridge = 2850.0 - 400.0 * v;
     // U-shaped trough up to a crest at d = 0.3, falling towards neighbouring valleys beyond.
     let cross = if d < 0.3 {
-        (d / 0.3).powf(1.5)
+        libm::pow(d / 0.3, 1.5)
     } else {
-        1.0 - 0.55 * ((d - 0.3) / 0.2).min(1.0).powf(1.3)
+        1.0 - 0.55 * libm::pow(((d - 0.3) / 0.2).min(1.0), 1.3)
     };
     let mut centreline = floor;
     // Cirque headwall closing the valley to the north.
@@ -123,7 +123,7 @@ fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
     let wall = cross.min(1.0);
     z += 160.0 * noise * (0.15 + wall);
     // Gullies and spurs running down both walls.
-    let gully = (v * 38.0 + 3.0 * noise).sin();
+    let gully = libm::sin(v * 38.0 + 3.0 * noise);
     z += 70.0 * gully * 4.0 * wall * (1.0 - wall);
 
     // Ice: a surface sloping down the valley and slightly convex across it; the thickness is
@@ -131,7 +131,7 @@ fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
     let ice = if v > HEAD_V && v < TONGUE_V {
         let along = ((TONGUE_V - v) / (TONGUE_V - HEAD_V)).sqrt();
         let head_taper = ((v - HEAD_V) / 0.08).min(1.0);
-        let surface = centreline + 120.0 * along * head_taper - 30.0 * (d / 0.12).powi(2);
+        let surface = centreline + 120.0 * along * head_taper - 30.0 * (d / 0.12) * (d / 0.12);
         (surface - z).max(0.0)
     } else {
         0.0
@@ -166,7 +166,8 @@ fn vegetation_at(bed_m: f64, ice_m: f64, slope_deg: f32, v: f64, idx: usize) -> 
 }
 
 fn gauss(x: f64, width: f64) -> f64 {
-    (-(x / width).powi(2)).exp()
+    let t = x / width;
+    libm::exp(-(t * t))
 }
 
 /// Hash of a 64-bit key to [0, 1) (SplitMix64 finaliser; Steele, Lea & Flood 2014).
@@ -237,7 +238,7 @@ mod tests {
     fn basin_under_the_ice_is_closed_by_the_riegel() {
         // Along the centreline the bed must dip in the basin and rise again before the tongue.
         let bed_at = |v: f64| {
-            let centre_u = 0.5 + 0.07 * (2.6 * v + 0.4).sin();
+            let centre_u = 0.5 + 0.07 * libm::sin(2.6 * v + 0.4);
             valley_at(centre_u, v, 10.0).0
         };
         let basin_floor = (380..460)
@@ -245,7 +246,8 @@ mod tests {
             .fold(f64::MAX, f64::min);
         let sill = bed_at(0.495);
         assert!(sill - basin_floor > 15.0, "sill {sill} basin {basin_floor}");
-        let (_, ice_over_basin) = valley_at(0.5 + 0.07 * (2.6f64 * 0.42 + 0.4).sin(), 0.42, 10.0);
+        let (_, ice_over_basin) =
+            valley_at(0.5 + 0.07 * libm::sin(2.6f64 * 0.42 + 0.4), 0.42, 10.0);
         assert!(
             ice_over_basin > 100.0,
             "{ice_over_basin} m of ice over the basin"

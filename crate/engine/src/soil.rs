@@ -83,7 +83,10 @@ impl SoilParams {
 
     /// Temperature factor of the rate.
     pub fn temperature_factor(&self, growing_season_temp_c: f32) -> f32 {
-        (self.q10 as f32).powf((growing_season_temp_c - self.reference_temp_c as f32) / 10.0)
+        libm::powf(
+            self.q10 as f32,
+            (growing_season_temp_c - self.reference_temp_c as f32) / 10.0,
+        )
     }
 }
 

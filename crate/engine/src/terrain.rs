@@ -96,7 +96,7 @@ pub fn horn_gradient(dem: &Grid, col: usize, row: usize) -> Option<(f64, f64)> {
 
 /// Slope angle in degrees from a Horn gradient.
 pub fn slope_deg(gradient: (f64, f64)) -> f64 {
-    gradient.0.hypot(gradient.1).atan().to_degrees()
+    libm::atan(libm::hypot(gradient.0, gradient.1)).to_degrees()
 }
 
 /// Compass direction the slope faces (downhill), degrees clockwise from north in [0, 360);
@@ -107,20 +107,22 @@ pub fn aspect_deg(gradient: (f64, f64)) -> Option<f64> {
         return None;
     }
     // Downhill points along -grad z; east = -dz_dx, north = +dz_dy (dz_dy is southward).
-    let aspect = (-dz_dx).atan2(dz_dy).to_degrees();
+    let aspect = libm::atan2(-dz_dx, dz_dy).to_degrees();
     Some(if aspect < 0.0 { aspect + 360.0 } else { aspect })
 }
 
 /// Lambertian hillshade in [0, 1] from a Horn gradient.
 pub fn hillshade_value(gradient: (f64, f64), sun: Sun) -> f64 {
     let zenith = (90.0 - sun.altitude_deg).to_radians();
-    let slope = gradient.0.hypot(gradient.1).atan();
+    let slope = libm::atan(libm::hypot(gradient.0, gradient.1));
     let cos_incidence = match aspect_deg(gradient) {
         Some(aspect) => {
-            zenith.cos() * slope.cos()
-                + zenith.sin() * slope.sin() * (sun.azimuth_deg - aspect).to_radians().cos()
+            libm::cos(zenith) * libm::cos(slope)
+                + libm::sin(zenith)
+                    * libm::sin(slope)
+                    * libm::cos((sun.azimuth_deg - aspect).to_radians())
         }
-        None => zenith.cos(),
+        None => libm::cos(zenith),
     };
     cos_incidence.max(0.0)
 }

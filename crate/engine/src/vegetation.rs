@@ -639,7 +639,7 @@ impl VegetationModel {
     fn develop_soil(&mut self, anomaly_c: f32) {
         let n = self.state.n_cells;
         // The Q10 response factors into a per-cell part and one for the year's anomaly.
-        let year_factor = (self.soil.q10 as f32).powf(anomaly_c / 10.0);
+        let year_factor = libm::powf(self.soil.q10 as f32, anomaly_c / 10.0);
         let fixer = &mut self.production;
         fixer.fill(0.0);
         for (t, setup) in self.types.iter().enumerate() {
@@ -865,8 +865,8 @@ impl VegetationModel {
             let distance =
                 setup.long_distance_kernel.sample_distance_m(&mut self.rng) / self.cell_size_m;
             let angle = std::f64::consts::TAU * uniform_open(&mut self.rng);
-            let x = col as f64 + 0.5 + distance * angle.cos();
-            let y = row as f64 + 0.5 + distance * angle.sin();
+            let x = col as f64 + 0.5 + distance * libm::cos(angle);
+            let y = row as f64 + 0.5 + distance * libm::sin(angle);
             if x >= 0.0 && y >= 0.0 && x < n_cols as f64 && y < self.n_rows as f64 {
                 rain[y as usize * n_cols + x as usize] += seeds;
             }
@@ -878,7 +878,7 @@ impl VegetationModel {
 /// A Poisson draw (Knuth's product method below 30, a rounded normal above).
 fn poisson<R: Rng + ?Sized>(rng: &mut R, mean: f64) -> usize {
     if mean < 30.0 {
-        let limit = (-mean).exp();
+        let limit = libm::exp(-mean);
         let mut product = uniform_open(rng);
         let mut k = 0;
         while product > limit {
@@ -887,8 +887,8 @@ fn poisson<R: Rng + ?Sized>(rng: &mut R, mean: f64) -> usize {
         }
         k
     } else {
-        let z = (-2.0 * uniform_open(rng).ln()).sqrt()
-            * (std::f64::consts::TAU * uniform_open(rng)).cos();
+        let z = (-2.0 * libm::log(uniform_open(rng))).sqrt()
+            * libm::cos(std::f64::consts::TAU * uniform_open(rng));
         (mean + mean.sqrt() * z).round().max(0.0) as usize
     }
 }
