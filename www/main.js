@@ -272,6 +272,21 @@ async function boot() {
     stageChart.setData([], []);
   }
 
+  /** Says which ice and vegetation the next run starts from, with the engine's notes. */
+  function showRunInputs() {
+    const sample = surface?.name === SAMPLE_NAME;
+    element('fi-ice').textContent = ice ? ice.name
+      : sample ? 'sample ice grid' : 'none yet: open an ice grid or glacier outline';
+    element('fi-vegetation').textContent = vegetation ? vegetation.name
+      : sample ? 'sample vegetation grid' : 'potential vegetation on ice-free ground';
+    const notes = [...(ice?.notes ?? []), ...(vegetation?.notes ?? [])];
+    element('fi-input-notes').replaceChildren(...notes.map((text) => {
+      const item = document.createElement('li');
+      item.textContent = text;
+      return item;
+    }));
+  }
+
   /** Hands one file's bytes to the engine; on failure the previous terrain stays shown. */
   function loadBytes(bytes, fileName, sidecarText) {
     try {
@@ -290,6 +305,7 @@ async function boot() {
     vegetation = null;
     drawMap({ keepView: false, legend: true });
     showInfo(info);
+    showRunInputs();
     showReadout(null);
     mapMessage.textContent = '';
     document.body.dataset.loads = String(Number(document.body.dataset.loads ?? 0) + 1);
@@ -297,6 +313,15 @@ async function boot() {
   }
 
   async function loadFiles(files) {
+    const outlines = files.filter((file) => /\.geojson$/i.test(file.name));
+    if (outlines.length > 0) {
+      if (outlines.length > 1 || files.length > 1) {
+        showError(`${files.map((file) => file.name).join(', ')}: drop one glacier outline, or the terrain files, at a time.`);
+        return;
+      }
+      await loadRunInput('ice', outlines[0]);
+      return;
+    }
     document.body.dataset.state = 'loading';
     try {
       const { bytes, fileName, sidecarText } = await readTerrainSelection(files);
@@ -469,19 +494,48 @@ async function boot() {
     setRunState('running', 'Cancelling…');
     worker.postMessage({ type: 'cancel' });
   });
-  element('open-ice').addEventListener('click', () => element('ice-input').click());
-  element('ice-input').addEventListener('change', async (event) => {
-    const [file] = event.target.files;
-    event.target.value = '';
-    if (!file) return;
+  /** Reads a picked file; the engine checks it against the terrain at once, so a bad file is
+   *  refused with its name and the ice or vegetation chosen before stays. */
+  async function loadRunInput(kind, file) {
+    let bytes;
     try {
-      ice = { bytes: new Uint8Array(await file.arrayBuffer()), name: file.name };
-      // The engine checks it against the terrain when the run starts, naming both files.
-      setRunState('ready', `Ice grid: ${file.name}.`);
+      bytes = new Uint8Array(await file.arrayBuffer());
     } catch (error) {
       showError(`${file.name}: could not be read (${error.message}).`);
+      return;
     }
-  });
+    if (!workspace.hasTerrain()) {
+      showError(`${file.name}: open the terrain first; the ${kind === 'ice' ? 'ice' : 'vegetation'} is checked against it.`);
+      return;
+    }
+    let notes;
+    try {
+      notes = kind === 'ice'
+        ? workspace.checkIce(bytes, file.name, form.validJson() ?? undefined)
+        : workspace.checkVegetation(bytes, file.name);
+    } catch (error) {
+      showError(error.message ?? String(error));
+      return;
+    }
+    clearError();
+    if (kind === 'ice') ice = { bytes, name: file.name, notes };
+    else vegetation = { bytes, name: file.name, notes };
+    showRunInputs();
+    const what = kind === 'ice' ? (/\.(geo)?json$/i.test(file.name) ? 'Glacier outline' : 'Ice grid') : 'Vegetation';
+    setRunState('ready', `${what}: ${file.name}. It is used from the next run.`);
+    document.body.dataset.inputs = String(Number(document.body.dataset.inputs ?? 0) + 1);
+  }
+
+  const pickOne = (buttonId, inputId, kind) => {
+    element(buttonId).addEventListener('click', () => element(inputId).click());
+    element(inputId).addEventListener('change', (event) => {
+      const [file] = event.target.files;
+      event.target.value = '';
+      if (file) loadRunInput(kind, file);
+    });
+  };
+  pickOne('open-ice', 'ice-input', 'ice');
+  pickOne('open-vegetation', 'vegetation-input', 'vegetation');
 
   element('layer').addEventListener('change', (event) => {
     layer = event.target.value;

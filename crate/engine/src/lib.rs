@@ -9,6 +9,7 @@
 //! port in wasm, which may differ by an ulp, and the page and the command line must give the
 //! same bytes for the same scenario and seed. `sqrt` is correctly rounded everywhere and stays.
 
+pub mod align;
 pub mod climate;
 pub mod coupled;
 pub mod dispersal;
@@ -27,6 +28,7 @@ pub mod outline;
 pub mod pft;
 pub mod recorded_run;
 pub mod render;
+pub mod run_inputs;
 pub mod sample;
 pub mod scenario;
 pub mod simulation;

@@ -65,6 +65,15 @@ pub enum LoadProblem {
     PngNotGrey16(String),
     #[error("the height map's sidecar JSON is invalid: {0}")]
     BadSidecar(String),
+    #[error("the grid is in EPSG:{found} but the terrain is in EPSG:{expected}; reproject it to the terrain's CRS first")]
+    CrsMismatch { found: u32, expected: u32 },
+    #[error("the grid (west {west_m} m, south {south_m} m, east {east_m} m, north {north_m} m) does not overlap the terrain")]
+    NoOverlap {
+        west_m: f64,
+        south_m: f64,
+        east_m: f64,
+        north_m: f64,
+    },
     #[error("the values look absurd for {what}: {value} {unit} (expected {min} to {max} {unit})")]
     AbsurdValue {
         what: &'static str,

@@ -9,7 +9,8 @@ use forefield_engine::layers::{self, LayerKind, LayerRenderer};
 use forefield_engine::render::{render_shaded, Legend, ELEVATION_RAMP};
 use forefield_engine::scenario::Scenario;
 use forefield_engine::recorded_run::RecordedRun;
-use forefield_engine::simulation::{bed_from_surface, IceSimulation};
+use forefield_engine::run_inputs::{self, IceInput};
+use forefield_engine::simulation::IceSimulation;
 use forefield_engine::terrain::{self, Sun, TerrainDerivatives};
 use forefield_engine::timeline::{PlantQuantity, Timeline};
 use forefield_engine::{Grid, LoadError};
@@ -103,6 +104,14 @@ pub struct Workspace {
     terrain: Option<LoadedTerrain>,
     timeline: Option<LoadedTimeline>,
     image_rgba: Vec<u8>,
+}
+
+impl Workspace {
+    fn loaded_terrain(&self) -> Result<&LoadedTerrain, JsError> {
+        self.terrain
+            .as_ref()
+            .ok_or_else(|| JsError::new("no terrain is loaded"))
+    }
 }
 
 impl Default for Workspace {
@@ -259,6 +268,49 @@ impl Workspace {
 /// Timeline layers: a recorded run (from the worker) viewed year by year.
 #[wasm_bindgen]
 impl Workspace {
+    /// Checks an ice source against the loaded terrain before a run: an ice-thickness
+    /// GeoTIFF, or a GeoJSON glacier outline (by its name) whose thickness is estimated with
+    /// the scenario's parameters (the defaults when `scenario_json` is absent or invalid).
+    /// Returns notes on resampling or the estimate; the error names the file.
+    #[wasm_bindgen(js_name = checkIce)]
+    pub fn check_ice(
+        &self,
+        bytes: &[u8],
+        name: &str,
+        scenario_json: Option<String>,
+    ) -> Result<JsValue, JsError> {
+        let terrain = self.loaded_terrain()?;
+        let notes = match ice_input(bytes, name)? {
+            IceInput::Outline { geojson, name } => {
+                let scenario = scenario_json
+                    .and_then(|json| Scenario::from_json(&json).ok())
+                    .unwrap_or_default();
+                let (_, note) = run_inputs::outline_thickness(&terrain.dem, geojson, name, &scenario)
+                    .map_err(|e| JsError::new(&e.to_string()))?;
+                vec![note]
+            }
+            IceInput::Thickness { bytes, name } => {
+                run_inputs::fit_ice_thickness(&terrain.dem.geometry, bytes, name)
+                    .map_err(to_js_error)?
+                    .1
+                    .into_iter()
+                    .collect()
+            }
+            IceInput::None => Vec::new(),
+        };
+        to_js(&notes)
+    }
+
+    /// Checks a GeoTIFF of succession stage codes 0-6 against the loaded terrain; returns
+    /// notes on resampling, or an error naming the file.
+    #[wasm_bindgen(js_name = checkVegetation)]
+    pub fn check_vegetation(&self, bytes: &[u8], name: &str) -> Result<JsValue, JsError> {
+        let terrain = self.loaded_terrain()?;
+        let (_, note) = run_inputs::fit_vegetation(&terrain.dem.geometry, bytes, name)
+            .map_err(to_js_error)?;
+        to_js(&note.into_iter().collect::<Vec<_>>())
+    }
+
     /// Takes a timeline recorded by [`RunRecorder::finish`] for the loaded terrain. On error
     /// the timeline loaded before stays.
     #[wasm_bindgen(js_name = loadTimeline)]
@@ -433,31 +485,44 @@ pub fn check_scenario(json: &str) -> Result<JsValue, JsError> {
 
 /// What every run starts from: the checked scenario, the surface, the bed under the ice and
 /// the ice itself.
+/// A scenario and the grids of a run, fitted onto the surface grid by the engine.
 struct RunInputs {
     scenario: Scenario,
-    surface: Grid,
-    bed: Grid,
-    ice: Grid,
+    grids: run_inputs::RunInputs,
 }
 
+/// Reads a run's inputs; `ice_name` ending in `.geojson` or `.json` makes `ice_bytes` a
+/// glacier outline (UTF-8 GeoJSON) whose thickness the engine estimates.
 fn read_run_inputs(
     scenario_json: &str,
     surface_bytes: &[u8],
     surface_name: &str,
     ice_bytes: &[u8],
     ice_name: &str,
+    vegetation: Option<(&[u8], &str)>,
 ) -> Result<RunInputs, JsError> {
     let scenario =
         Scenario::from_json(scenario_json).map_err(|e| JsError::new(&format!("scenario: {e}")))?;
-    let surface = read_geotiff(surface_bytes, surface_name).map_err(to_js_error)?;
-    let ice = read_geotiff(ice_bytes, ice_name).map_err(to_js_error)?;
-    let bed = bed_from_surface(&surface, &ice).map_err(|e| JsError::new(&e.to_string()))?;
-    Ok(RunInputs {
-        scenario,
-        surface,
-        bed,
-        ice,
-    })
+    let ice = ice_input(ice_bytes, ice_name)?;
+    let grids =
+        run_inputs::read_run_inputs(&scenario, surface_bytes, surface_name, ice, vegetation)
+            .map_err(|e| JsError::new(&e.to_string()))?;
+    Ok(RunInputs { scenario, grids })
+}
+
+fn is_geojson_name(name: &str) -> bool {
+    let lower = name.to_ascii_lowercase();
+    lower.ends_with(".geojson") || lower.ends_with(".json")
+}
+
+fn ice_input<'a>(bytes: &'a [u8], name: &'a str) -> Result<IceInput<'a>, JsError> {
+    if is_geojson_name(name) {
+        let geojson = std::str::from_utf8(bytes)
+            .map_err(|_| JsError::new(&format!("{name}: not UTF-8 text, so not GeoJSON")))?;
+        Ok(IceInput::Outline { geojson, name })
+    } else {
+        Ok(IceInput::Thickness { bytes, name })
+    }
 }
 
 fn to_js<T: Serialize>(value: &T) -> Result<JsValue, JsError> {
@@ -488,20 +553,17 @@ impl IceRun {
         ice_bytes: &[u8],
         ice_name: &str,
     ) -> Result<IceRun, JsError> {
-        let RunInputs {
-            scenario,
-            surface: _,
-            bed,
-            ice,
-        } = read_run_inputs(
+        let RunInputs { scenario, grids } = read_run_inputs(
             scenario_json,
             surface_bytes,
             surface_name,
             ice_bytes,
             ice_name,
+            None,
         )?;
         let simulation =
-            IceSimulation::new(&bed, &ice, &scenario).map_err(|e| JsError::new(&e.to_string()))?;
+            IceSimulation::new(&grids.bed_m, &grids.ice_thickness_m, &scenario)
+                .map_err(|e| JsError::new(&e.to_string()))?;
         Ok(IceRun { simulation })
     }
 
@@ -566,19 +628,15 @@ impl RunRecorder {
         ice_bytes: &[u8],
         ice_name: &str,
     ) -> Result<RunRecorder, JsError> {
-        let RunInputs {
-            scenario,
-            surface: _,
-            bed,
-            ice,
-        } = read_run_inputs(
+        let RunInputs { scenario, grids } = read_run_inputs(
             scenario_json,
             surface_bytes,
             surface_name,
             ice_bytes,
             ice_name,
+            None,
         )?;
-        let run = RecordedRun::ice_only(&bed, &ice, &scenario)
+        let run = RecordedRun::ice_only(&grids.bed_m, &grids.ice_thickness_m, &scenario)
             .map_err(|e| JsError::new(&e.to_string()))?;
         Ok(RunRecorder { run })
     }
@@ -597,32 +655,23 @@ impl RunRecorder {
         vegetation_bytes: Option<Vec<u8>>,
         vegetation_name: Option<String>,
     ) -> Result<RunRecorder, JsError> {
-        let RunInputs {
-            scenario,
-            surface,
-            bed,
-            ice,
-        } = read_run_inputs(
+        let vegetation_name = vegetation_name.unwrap_or_else(|| "vegetation grid".to_string());
+        let RunInputs { scenario, grids } = read_run_inputs(
             scenario_json,
             surface_bytes,
             surface_name,
             ice_bytes,
             ice_name,
+            vegetation_bytes
+                .as_deref()
+                .map(|bytes| (bytes, vegetation_name.as_str())),
         )?;
-        let stages = match vegetation_bytes {
-            Some(bytes) => {
-                let name = vegetation_name.unwrap_or_else(|| "vegetation grid".to_string());
-                let grid = read_geotiff(&bytes, &name).map_err(to_js_error)?;
-                if !grid.geometry.aligns_with(&surface.geometry) {
-                    return Err(JsError::new(&format!(
-                        "{name}: does not line up with {surface_name} (size, corner, cell size or CRS differ)"
-                    )));
-                }
-                Some(grid)
-            }
-            None => None,
-        };
-        let run = RecordedRun::with_plants(&bed, &ice, &scenario, stages.as_ref())
+        let run = RecordedRun::with_plants(
+            &grids.bed_m,
+            &grids.ice_thickness_m,
+            &scenario,
+            grids.vegetation.as_ref(),
+        )
             .map_err(|e| JsError::new(&e.to_string()))?;
         Ok(RunRecorder { run })
     }
@@ -688,22 +737,21 @@ impl CoupledRun {
         vegetation_bytes: &[u8],
         vegetation_name: &str,
     ) -> Result<CoupledRun, JsError> {
-        let RunInputs {
-            scenario,
-            surface: _,
-            bed,
-            ice,
-        } = read_run_inputs(
+        let RunInputs { scenario, grids } = read_run_inputs(
             scenario_json,
             surface_bytes,
             surface_name,
             ice_bytes,
             ice_name,
+            Some((vegetation_bytes, vegetation_name)),
         )?;
-        let stages = read_geotiff(vegetation_bytes, vegetation_name).map_err(to_js_error)?;
-        let simulation =
-            forefield_engine::coupled::CoupledSimulation::new(&bed, &ice, &scenario, Some(&stages))
-                .map_err(|e| JsError::new(&e.to_string()))?;
+        let simulation = forefield_engine::coupled::CoupledSimulation::new(
+            &grids.bed_m,
+            &grids.ice_thickness_m,
+            &scenario,
+            grids.vegetation.as_ref(),
+        )
+        .map_err(|e| JsError::new(&e.to_string()))?;
         let rows = vec![simulation.start_summary()];
         Ok(CoupledRun { simulation, rows })
     }
