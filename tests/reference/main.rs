@@ -1,5 +1,10 @@
 //! Reference checks of the engine against published solutions and independent references.
 
+mod export_csv;
+mod export_fixture;
+mod export_geojson;
+mod export_geotiff;
+mod export_png;
 mod geotiff_read;
 mod ice_conservation;
 mod ice_halfar;

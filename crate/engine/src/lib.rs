@@ -16,6 +16,7 @@ pub mod dispersal;
 pub mod disturbance;
 pub mod establishment;
 pub mod exposure;
+pub mod export;
 pub mod geotiff;
 pub mod grid;
 pub mod heightmap_png;
