@@ -1,6 +1,8 @@
 //! `forefield`: the native command line over the engine (sample data, grid info, static server).
 
 mod bench;
+mod export;
+mod exports;
 mod run;
 mod serve;
 
@@ -21,7 +23,10 @@ USAGE:
                                               (default size 400 cells of 25 m, DIR sample-grids)
     forefield info FILE.tif                   describe a GeoTIFF grid (size, georeference, range)
     forefield relief DEM.tif OUT.png          shaded relief with the elevation ramp, one pixel a cell
-    forefield run SCENARIO.json [--out DIR]   run the ice model of a scenario (default DIR out)
+    forefield run SCENARIO.json [--out DIR]   run ice and plants of a scenario, write the summary,
+                                              timeline and exports (default DIR out; `run --help`)
+    forefield export RUN_DIR [--years ...]    write snapshots, CSV, GeoTIFF and GeoJSON of any year
+                                              and layer from a finished run (`export --help`)
     forefield bench [--grids DIR]             time the 200-year ice run (default sample-grids/large)
     forefield serve [--dir DIR] [--port P]    serve a folder on 127.0.0.1 (default www, 8765)
     forefield help                            this text
@@ -49,7 +54,16 @@ fn dispatch(args: &[String]) -> Result<()> {
     match command.as_str() {
         "sample" => write_sample(rest),
         "info" => info(rest),
+        "run" if wants_help(rest) => {
+            println!("{}", run::usage());
+            Ok(())
+        }
         "run" => run::run(rest),
+        "export" if wants_help(rest) => {
+            println!("{}", export::usage());
+            Ok(())
+        }
+        "export" => export::export(rest),
         "bench" => bench::bench(rest),
         "relief" => relief(rest),
         "serve" => {
@@ -68,6 +82,10 @@ fn dispatch(args: &[String]) -> Result<()> {
         }
         other => bail!("unknown command {other:?}\n\n{USAGE}"),
     }
+}
+
+fn wants_help(args: &[String]) -> bool {
+    args.iter().any(|a| a == "--help" || a == "-h")
 }
 
 /// Value of `--name VALUE` in `args`, if given.

@@ -1,18 +1,26 @@
-//! `forefield run SCENARIO.json [--out DIR]`: runs the ice model of a scenario file and writes
-//! the yearly summary (CSV), ice thickness for the requested years and the exposure years
-//! (GeoTIFF). Grid file names in the scenario are relative to the scenario file.
+//! `forefield run SCENARIO.json [--out DIR] [--vegetation STAGES.tif] [--ice-only] [export
+//! options]`: runs the coupled ice and plant model of a scenario file through the engine's
+//! recorded run (as the page's worker does) and writes the yearly summary (CSV), the
+//! timeline, the terrain it ran on, ice thickness for the scenario's output years and the
+//! exposure years (GeoTIFF), and the exports asked for. Grid file names in the scenario are
+//! relative to the scenario file.
 
-use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
 use anyhow::{bail, Context, Result};
+use forefield_engine::export::csv_tables::summary_csv;
+use forefield_engine::export::{ExportMeta, CAUTION};
 use forefield_engine::exposure::{ICE_FREE_AT_START, STILL_ICE_COVERED};
 use forefield_engine::geotiff::{read_geotiff, write_geotiff};
 use forefield_engine::grid::Grid;
 use forefield_engine::ice_outline::thickness_from_outline;
 use forefield_engine::outline::outline_mask;
+use forefield_engine::recorded_run::RecordedRun;
+use forefield_engine::run_inputs::{fit_vegetation, read_run_inputs, IceInput};
 use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::{bed_from_surface, IceSimulation, YearSummary};
+use forefield_engine::simulation::{bed_from_surface, IceSimulation};
+
+use crate::exports::{write_exports, write_file, ExportRequest, EXPORT_OPTIONS};
 
 /// Value written to `year_exposed.tif` for cells ice-free since before the start.
 pub const EXPOSED_BEFORE_START_VALUE: f32 = -1.0;
@@ -20,41 +28,77 @@ pub const EXPOSED_BEFORE_START_VALUE: f32 = -1.0;
 /// Nodata marker of the written GeoTIFFs.
 const NODATA_VALUE: f64 = -9999.0;
 
-const CAUTION: &str = "Outputs are planning-level scenarios, not hazard assessments or \
-forecasts; consult local authorities and qualified professionals about lakes, slopes and siting.";
+/// Files of a run folder that `forefield export` reads back.
+pub const TIMELINE_FILE: &str = "timeline.fftl";
+pub const TERRAIN_FILE: &str = "terrain.tif";
+pub const SCENARIO_FILE: &str = "scenario.json";
+
+pub fn usage() -> String {
+    format!(
+        "forefield run SCENARIO.json [--out DIR] [--vegetation STAGES.tif] [--ice-only] [options]
+
+    --out DIR           output folder (default out)
+    --vegetation FILE   GeoTIFF of succession stage codes 0-6 to start the plants from
+                        (default: each cell starts at its potential vegetation)
+    --ice-only          run the ice model alone
+{EXPORT_OPTIONS}"
+    )
+}
 
 /// Entry point of the `run` subcommand; `args` are the words after `run`.
 pub fn run(args: &[String]) -> Result<()> {
     let mut scenario_path: Option<PathBuf> = None;
     let mut out_dir = PathBuf::from("out");
+    let mut vegetation: Option<PathBuf> = None;
+    let mut ice_only = false;
+    let mut request = ExportRequest::default();
     let mut words = args.iter();
     while let Some(word) = words.next() {
+        if request.take_option(word, &mut words)? {
+            continue;
+        }
         match word.as_str() {
             "--out" => match words.next() {
                 Some(dir) => out_dir = PathBuf::from(dir),
                 None => bail!("--out needs a folder"),
             },
-            flag if flag.starts_with("--") => bail!("run: unknown option {flag:?}"),
+            "--vegetation" => match words.next() {
+                Some(file) => vegetation = Some(PathBuf::from(file)),
+                None => bail!("--vegetation needs a GeoTIFF file"),
+            },
+            "--ice-only" => ice_only = true,
+            flag if flag.starts_with("--") => bail!("run: unknown option {flag:?}\n\n{}", usage()),
             path if scenario_path.is_none() => scenario_path = Some(PathBuf::from(path)),
             extra => bail!("run: unexpected argument {extra:?}"),
         }
     }
     let Some(scenario_path) = scenario_path else {
-        bail!("run needs a scenario file: forefield run SCENARIO.json --out DIR")
+        bail!("run needs a scenario file:\n\n{}", usage())
     };
+    if ice_only && vegetation.is_some() {
+        bail!("--ice-only and --vegetation exclude each other");
+    }
     let text = std::fs::read_to_string(&scenario_path)
         .with_context(|| format!("reading {}", scenario_path.display()))?;
     let scenario = Scenario::from_json(&text)
         .with_context(|| format!("scenario {}", scenario_path.display()))?;
     let base = scenario_path.parent().unwrap_or(Path::new("."));
-    let (bed, thickness) = load_ice_inputs(&scenario, base)?;
-
-    let mut simulation = IceSimulation::new(&bed, &thickness, &scenario)
-        .with_context(|| format!("scenario {}", scenario_path.display()))?;
+    let IceInputs {
+        terrain,
+        bed,
+        thickness,
+        stages,
+    } = load_inputs(&scenario, base, vegetation.as_deref())?;
+    let mut run = if ice_only {
+        RecordedRun::ice_only(&bed, &thickness, &scenario)
+    } else {
+        RecordedRun::with_plants(&bed, &thickness, &scenario, stages.as_ref())
+    }
+    .with_context(|| format!("scenario {}", scenario_path.display()))?;
     std::fs::create_dir_all(&out_dir).with_context(|| format!("creating {}", out_dir.display()))?;
-    let (ice_cols, ice_rows, ice_cell_m) = simulation.ice_grid_shape();
+    let (ice_cols, ice_rows, ice_cell_m) = run.ice().ice_grid_shape();
     println!(
-        "{}: {} years from {} on {} x {} cells; ice grid {} x {} cells of {} m",
+        "{}: {} years from {} on {} x {} cells; ice grid {} x {} cells of {} m; {}",
         scenario.name,
         scenario.n_years,
         scenario.start_year,
@@ -62,39 +106,49 @@ pub fn run(args: &[String]) -> Result<()> {
         bed.n_rows(),
         ice_cols,
         ice_rows,
-        ice_cell_m
+        ice_cell_m,
+        if run.has_plants() {
+            "ice and plants"
+        } else {
+            "ice only"
+        }
     );
-    if scenario.output_years.contains(&simulation.year()) {
-        write_thickness(&out_dir, &bed, &simulation)?;
+    if scenario.output_years.contains(&run.year()) {
+        write_thickness(&out_dir, &bed, run.ice())?;
     }
     let step = (scenario.n_years / 10).max(1) as i32;
-    while let Some(row) = simulation.step_year() {
-        if scenario.output_years.contains(&row.year) {
-            write_thickness(&out_dir, &bed, &simulation)?;
+    while let Some(row) = run.step_year() {
+        let year = row.ice.year;
+        if scenario.output_years.contains(&year) {
+            write_thickness(&out_dir, &bed, run.ice())?;
         }
-        if (row.year - scenario.start_year) % step == 0 {
-            println!(
+        if (year - scenario.start_year) % step == 0 {
+            let r = &row.ice;
+            let mut line = format!(
                 "year {}: dT {:+.2} C, ELA {:.0} m, ice {:.3} km2, {:.4} km3",
-                row.year,
-                row.temperature_anomaly_c,
-                row.ela_m,
-                row.ice_area_km2,
-                row.ice_volume_km3
+                r.year, r.temperature_anomaly_c, r.ela_m, r.ice_area_km2, r.ice_volume_km3
             );
+            if let Some(v) = &row.vegetation {
+                let colonised: f64 = v.stage_area_km2[2..].iter().sum();
+                line.push_str(&format!(", plants on {colonised:.3} km2"));
+            }
+            println!("{line}");
         }
     }
+    let timeline = run.finish()?;
+    let meta = ExportMeta::from_scenario(&scenario);
     write_file(
         &out_dir.join("summary.csv"),
-        summary_csv(simulation.summary()).into_bytes(),
+        summary_csv(run.rows(), timeline.type_names(), &meta).as_bytes(),
     )?;
+    write_file(&out_dir.join(TIMELINE_FILE), &timeline.to_bytes())?;
+    write_file(&out_dir.join(TERRAIN_FILE), &write_geotiff(&terrain))?;
     write_file(
         &out_dir.join("year_exposed.tif"),
-        write_geotiff(&exposure_grid(&bed, &simulation)),
+        &write_geotiff(&exposure_grid(&bed, run.ice())),
     )?;
-    write_file(
-        &out_dir.join("scenario.json"),
-        scenario.to_json().into_bytes(),
-    )?;
+    write_file(&out_dir.join(SCENARIO_FILE), scenario.to_json().as_bytes())?;
+    write_exports(&out_dir, &timeline, &terrain, &meta, &request)?;
     println!("{CAUTION}");
     Ok(())
 }
@@ -106,8 +160,105 @@ fn read_grid(base: &Path, name: &Option<String>) -> Result<Option<Grid>> {
     Ok(Some(read_geotiff(&bytes, name)?))
 }
 
-/// Bed and initial thickness from whichever grids the scenario names.
-fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<(Grid, Grid)> {
+/// The grids a run starts from: the terrain as the page would load it (the surface DEM, or
+/// bed plus ice where the scenario gives no surface), the bed, the initial thickness and the
+/// starting succession stages, if given.
+struct IceInputs {
+    terrain: Grid,
+    bed: Grid,
+    thickness: Grid,
+    stages: Option<Grid>,
+}
+
+fn read_bytes(path: &Path) -> Result<Vec<u8>> {
+    std::fs::read(path).with_context(|| format!("reading {}", path.display()))
+}
+
+/// The run's grids. A surface DEM with a thickness grid, a GeoJSON outline or no ice goes
+/// through the engine's run inputs exactly as the page's files do (ice and vegetation
+/// fitted onto the terrain); the other combinations the page does not offer are read here.
+fn load_inputs(scenario: &Scenario, base: &Path, vegetation: Option<&Path>) -> Result<IceInputs> {
+    let grids = &scenario.grids;
+    let vegetation_file = match vegetation {
+        Some(path) => Some((read_bytes(path)?, path.display().to_string())),
+        None => None,
+    };
+    let mask_is_tiff = grids
+        .glacier_mask
+        .as_deref()
+        .is_some_and(|name| !is_geojson(name));
+    if let (Some(surface_name), None, false) =
+        (&grids.surface_elevation, &grids.bed_elevation, mask_is_tiff)
+    {
+        let surface_bytes = read_bytes(&base.join(surface_name))?;
+        let thickness_bytes;
+        let outline_text;
+        let ice = match (&grids.ice_thickness, &grids.glacier_mask) {
+            (Some(name), _) => {
+                thickness_bytes = read_bytes(&base.join(name))?;
+                IceInput::Thickness {
+                    bytes: &thickness_bytes,
+                    name,
+                }
+            }
+            (None, Some(name)) => {
+                let path = base.join(name);
+                outline_text = std::fs::read_to_string(&path)
+                    .with_context(|| format!("reading {}", path.display()))?;
+                IceInput::Outline {
+                    geojson: &outline_text,
+                    name,
+                }
+            }
+            (None, None) => IceInput::None,
+        };
+        let grids = read_run_inputs(
+            scenario,
+            &surface_bytes,
+            surface_name,
+            ice,
+            vegetation_file
+                .as_ref()
+                .map(|(bytes, name)| (bytes.as_slice(), name.as_str())),
+        )?;
+        for note in &grids.notes {
+            println!("{note}");
+        }
+        return Ok(IceInputs {
+            terrain: grids.surface_m,
+            bed: grids.bed_m,
+            thickness: grids.ice_thickness_m,
+            stages: grids.vegetation,
+        });
+    }
+    let mut inputs = load_ice_inputs(scenario, base)?;
+    if let Some((bytes, name)) = &vegetation_file {
+        let (grid, note) = fit_vegetation(&inputs.terrain.geometry, bytes, name)?;
+        if let Some(note) = note {
+            println!("{note}");
+        }
+        inputs.stages = Some(grid);
+    }
+    Ok(inputs)
+}
+
+fn surface_of(bed: &Grid, thickness: &Grid) -> Grid {
+    let mut surface = bed.clone();
+    for ((z, &h), &missing) in surface
+        .values
+        .iter_mut()
+        .zip(&thickness.values)
+        .zip(&thickness.nodata)
+    {
+        if !missing {
+            *z += h;
+        }
+    }
+    surface
+}
+
+/// Terrain, bed and initial thickness from whichever grids the scenario names.
+fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<IceInputs> {
     let grids = &scenario.grids;
     let surface = read_grid(base, &grids.surface_elevation)?;
     let bed = read_grid(base, &grids.bed_elevation)?;
@@ -128,10 +279,19 @@ fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<(Grid, Grid)> {
         None => read_grid(base, &grids.glacier_mask)?,
     };
     let zero_like = |grid: &Grid| Grid::filled(grid.geometry, 0.0);
+    let inputs = |terrain: Grid, bed: Grid, thickness: Grid| IceInputs {
+        terrain,
+        bed,
+        thickness,
+        stages: None,
+    };
     Ok(match (surface, bed, thickness, mask) {
-        (_, Some(bed), Some(thickness), None) => (bed, thickness),
+        (_, Some(bed), Some(thickness), None) => {
+            inputs(surface_of(&bed, &thickness), bed, thickness)
+        }
         (Some(surface), None, Some(thickness), None) => {
-            (bed_from_surface(&surface, &thickness)?, thickness)
+            let bed = bed_from_surface(&surface, &thickness)?;
+            inputs(surface, bed, thickness)
         }
         (Some(surface), None, None, mask) if mask.is_some() || outline_text.is_some() => {
             let name = grids.glacier_mask.as_deref().unwrap_or_default();
@@ -164,15 +324,16 @@ fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<(Grid, Grid)> {
                 estimate.scaling_volume_m3 / 1e9
             );
             let thickness = estimate.ice_thickness_m;
-            (bed_from_surface(&surface, &thickness)?, thickness)
+            let bed = bed_from_surface(&surface, &thickness)?;
+            inputs(surface, bed, thickness)
         }
         (None, Some(bed), None, None) => {
             let thickness = zero_like(&bed);
-            (bed, thickness)
+            inputs(bed.clone(), bed, thickness)
         }
         (Some(surface), None, None, None) => {
             let thickness = zero_like(&surface);
-            (surface, thickness)
+            inputs(surface.clone(), surface, thickness)
         }
         // Scenario validation refuses every other combination.
         _ => bail!("the scenario's grids are not a usable combination"),
@@ -183,12 +344,6 @@ fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<(Grid, Grid)> {
 fn is_geojson(name: &str) -> bool {
     let lower = name.to_ascii_lowercase();
     lower.ends_with(".geojson") || lower.ends_with(".json")
-}
-
-fn write_file(path: &Path, bytes: Vec<u8>) -> Result<()> {
-    std::fs::write(path, bytes).with_context(|| format!("writing {}", path.display()))?;
-    println!("wrote {}", path.display());
-    Ok(())
 }
 
 fn write_thickness(out_dir: &Path, bed: &Grid, simulation: &IceSimulation) -> Result<()> {
@@ -202,7 +357,7 @@ fn write_thickness(out_dir: &Path, bed: &Grid, simulation: &IceSimulation) -> Re
         *value = if missing { f32::NAN } else { h };
     }
     let name = format!("ice_thickness_{}.tif", simulation.year());
-    write_file(&out_dir.join(name), write_geotiff(&grid))
+    write_file(&out_dir.join(name), &write_geotiff(&grid))
 }
 
 /// Exposure years as a float layer: the year, -1 for ice-free since before the start,
@@ -226,28 +381,4 @@ fn layer_like(bed: &Grid) -> Grid {
     grid.nodata.clone_from(&bed.nodata);
     grid.nodata_value = Some(NODATA_VALUE);
     grid
-}
-
-/// The yearly summary as RFC 4180 CSV with units in the column names.
-pub fn summary_csv(rows: &[YearSummary]) -> String {
-    let mut csv = String::from(
-        "year,temperature_anomaly_c,ela_m,ice_area_km2,ice_volume_km3,newly_exposed_area_km2,\
-         max_thickness_m,flow_substeps\r\n",
-    );
-    for r in rows {
-        // Writing to a String cannot fail.
-        let _ = write!(
-            csv,
-            "{},{:.4},{:.2},{:.6},{:.8},{:.6},{:.2},{}\r\n",
-            r.year,
-            r.temperature_anomaly_c,
-            r.ela_m,
-            r.ice_area_km2,
-            r.ice_volume_km3,
-            r.newly_exposed_area_km2,
-            r.max_thickness_m,
-            r.substeps
-        );
-    }
-    csv
 }

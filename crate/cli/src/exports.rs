@@ -1,0 +1,227 @@
+//! Writing the engine's exports (PNG snapshot, cell CSV, GeoTIFF layer, GeoJSON shapes, cell
+//! history) for chosen years and layers into a folder: shared by `forefield run` and
+//! `forefield export`.
+
+use std::path::Path;
+
+use anyhow::{bail, Context, Result};
+use forefield_engine::export::csv_tables::{cell_history_csv, CellsCsv, DEFAULT_CHUNK_ROWS};
+use forefield_engine::export::geojson_shapes::{ice_outlines_geojson, stage_polygons_geojson};
+use forefield_engine::export::layer_geotiff::layer_geotiff;
+use forefield_engine::export::png_snapshot::snapshot_png;
+use forefield_engine::export::{bed_renderer, layer_file_stem, layer_kind, ExportMeta};
+use forefield_engine::grid::Grid;
+use forefield_engine::layers::LayerKind;
+use forefield_engine::timeline::Timeline;
+
+/// What to export: years, layers, formats and cells whose history to write.
+#[derive(Clone, Debug, Default)]
+pub struct ExportRequest {
+    /// `None`: the last year.
+    pub years: Option<String>,
+    /// `None`: ice thickness, and the succession stage for runs with plants.
+    pub layers: Option<String>,
+    /// `None`: every format.
+    pub formats: Option<String>,
+    pub cells: Vec<(usize, usize)>,
+}
+
+pub const FORMATS: [&str; 4] = ["png", "tif", "csv", "geojson"];
+
+pub const EXPORT_OPTIONS: &str = "\
+    --years Y,Y,...     years to export, or `last` (default), `start`, `all`
+    --layers L,L,...    ice_thickness, exposure_year, stage, cover:N, soil, or `all`
+                        (default ice_thickness, and stage for runs with plants)
+    --formats F,F,...   png, tif, csv, geojson (default all four)
+    --cell COL,ROW      also write this cell's history as CSV (repeat for several cells)";
+
+impl ExportRequest {
+    /// Takes an export option and its value, if `word` is one.
+    pub fn take_option<'a>(
+        &mut self,
+        word: &str,
+        words: &mut impl Iterator<Item = &'a String>,
+    ) -> Result<bool> {
+        let mut value = || -> Result<String> {
+            match words.next() {
+                Some(v) => Ok(v.clone()),
+                None => bail!("{word} needs a value"),
+            }
+        };
+        match word {
+            "--years" => self.years = Some(value()?),
+            "--layers" => self.layers = Some(value()?),
+            "--formats" => self.formats = Some(value()?),
+            "--cell" => {
+                let v = value()?;
+                let parsed = v
+                    .split_once(',')
+                    .and_then(|(c, r)| Some((c.trim().parse().ok()?, r.trim().parse().ok()?)));
+                match parsed {
+                    Some(cell) => self.cells.push(cell),
+                    None => bail!("--cell {v:?} is not COL,ROW"),
+                }
+            }
+            _ => return Ok(false),
+        }
+        Ok(true)
+    }
+
+    fn years(&self, timeline: &Timeline) -> Result<Vec<i32>> {
+        let (first, last) = (timeline.start_year(), timeline.last_year());
+        let text = self.years.as_deref().unwrap_or("last");
+        let mut years = Vec::new();
+        for word in text.split(',').map(str::trim).filter(|w| !w.is_empty()) {
+            match word {
+                "last" => years.push(last),
+                "start" => years.push(first),
+                "all" => years.extend(first..=last),
+                y => {
+                    let year: i32 = y
+                        .parse()
+                        .with_context(|| format!("--years: {y:?} is not a year"))?;
+                    if !(first..=last).contains(&year) {
+                        bail!("--years: {year} is outside the run ({first} to {last})");
+                    }
+                    years.push(year);
+                }
+            }
+        }
+        years.dedup();
+        if years.is_empty() {
+            bail!("--years names no year");
+        }
+        Ok(years)
+    }
+
+    fn layers(&self, timeline: &Timeline) -> Result<Vec<LayerKind>> {
+        let all: Vec<String> = {
+            let mut names = vec!["ice_thickness".to_string(), "exposure_year".to_string()];
+            if timeline.has_plants() {
+                names.push("stage".into());
+                names.extend((0..timeline.type_names().len()).map(|t| format!("cover:{t}")));
+                names.push("soil".into());
+            }
+            names
+        };
+        let default = if timeline.has_plants() {
+            "ice_thickness,stage"
+        } else {
+            "ice_thickness"
+        };
+        let text = self.layers.as_deref().unwrap_or(default);
+        let names: Vec<String> = if text == "all" {
+            all
+        } else {
+            text.split(',').map(|s| s.trim().to_string()).collect()
+        };
+        names
+            .iter()
+            .filter(|n| !n.is_empty())
+            .map(|n| layer_kind(timeline, n).with_context(|| format!("--layers {n:?}")))
+            .collect()
+    }
+
+    fn formats(&self) -> Result<Vec<&'static str>> {
+        let Some(text) = self.formats.as_deref() else {
+            return Ok(FORMATS.to_vec());
+        };
+        text.split(',')
+            .map(str::trim)
+            .filter(|f| !f.is_empty())
+            .map(|f| match FORMATS.iter().find(|&&k| k == f) {
+                Some(&k) => Ok(k),
+                None => bail!("--formats: unknown format {f:?} (png, tif, csv, geojson)"),
+            })
+            .collect()
+    }
+}
+
+pub fn write_file(path: &Path, bytes: &[u8]) -> Result<()> {
+    std::fs::write(path, bytes).with_context(|| format!("writing {}", path.display()))?;
+    println!("wrote {}", path.display());
+    Ok(())
+}
+
+/// Writes every export `request` asks for into `out_dir`.
+pub fn write_exports(
+    out_dir: &Path,
+    timeline: &Timeline,
+    dem: &Grid,
+    meta: &ExportMeta,
+    request: &ExportRequest,
+) -> Result<()> {
+    let years = request.years(timeline)?;
+    let layers = request.layers(timeline)?;
+    let formats = request.formats()?;
+    let wants = |f: &str| formats.contains(&f);
+    std::fs::create_dir_all(out_dir).with_context(|| format!("creating {}", out_dir.display()))?;
+    let mut renderer = wants("png").then(|| bed_renderer(dem, timeline));
+    for &year in &years {
+        for &kind in &layers {
+            let stem = layer_file_stem(kind);
+            if let Some(renderer) = renderer.as_mut() {
+                let shot = snapshot_png(timeline, renderer, dem, meta, kind, year)?;
+                write_file(
+                    &out_dir.join(format!("snapshot_{stem}_{year}.png")),
+                    &shot.png,
+                )?;
+            }
+            if wants("tif") {
+                let bytes = layer_geotiff(timeline, dem, kind, year)?;
+                write_file(&out_dir.join(format!("layer_{stem}_{year}.tif")), &bytes)?;
+            }
+        }
+        if wants("csv") {
+            write_cells_csv(
+                &out_dir.join(format!("cells_{year}.csv")),
+                timeline,
+                dem,
+                meta,
+                year,
+            )?;
+        }
+        if wants("geojson") && timeline.has_plants() {
+            let text = stage_polygons_geojson(timeline, dem, meta, year)?;
+            write_file(
+                &out_dir.join(format!("stages_{year}.geojson")),
+                text.as_bytes(),
+            )?;
+        }
+    }
+    if wants("geojson") {
+        let text = ice_outlines_geojson(timeline, dem, meta, &years)?;
+        write_file(&out_dir.join("ice_outlines.geojson"), text.as_bytes())?;
+    }
+    for &(col, row) in &request.cells {
+        let text = cell_history_csv(timeline, dem, meta, &[(col, row)])?;
+        write_file(
+            &out_dir.join(format!("cell_{col}_{row}_history.csv")),
+            text.as_bytes(),
+        )?;
+    }
+    Ok(())
+}
+
+/// The cell table, written a chunk at a time as the page would hand it on.
+fn write_cells_csv(
+    path: &Path,
+    timeline: &Timeline,
+    dem: &Grid,
+    meta: &ExportMeta,
+    year: i32,
+) -> Result<()> {
+    use std::io::Write as _;
+    let file =
+        std::fs::File::create(path).with_context(|| format!("writing {}", path.display()))?;
+    let mut file = std::io::BufWriter::new(file);
+    let mut table = CellsCsv::new(timeline, dem, meta, year)?;
+    while let Some(chunk) = table.next_chunk(timeline, dem, DEFAULT_CHUNK_ROWS)? {
+        file.write_all(&chunk)
+            .with_context(|| format!("writing {}", path.display()))?;
+    }
+    file.flush()
+        .with_context(|| format!("writing {}", path.display()))?;
+    println!("wrote {} ({} cells)", path.display(), table.rows_total());
+    Ok(())
+}
