@@ -2,7 +2,13 @@
 //! explanation. Defaults come from `Scenario::default()` and every range and unit is read from
 //! the engine's own validation (each field is set far out of range and the engine's
 //! `OutOfRange` error names the range), so the page never repeats a number by hand.
+//!
+//! Plant-type traits are columns of one table: their paths read `vegetation.types[].trait`,
+//! their default is the list of each default type's value, and their range is probed on the
+//! first type.
 
+use forefield_engine::dispersal::KernelFamily;
+use forefield_engine::pft::GrowthForm;
 use forefield_engine::scenario::{Scenario, ScenarioError};
 use serde::Serialize;
 use serde_json::Value;
@@ -14,6 +20,18 @@ pub enum FieldKind {
     Number,
     Integer,
     Text,
+    /// One of `options`.
+    Choice,
+    /// Yes or no.
+    Boolean,
+}
+
+/// One value a choice field offers.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ChoiceOption {
+    /// As written in the scenario JSON.
+    pub value: Value,
+    pub label: &'static str,
 }
 
 /// One form field.
@@ -31,10 +49,21 @@ pub struct FieldSchema {
     pub min: Option<f64>,
     pub max: Option<f64>,
     pub unit: String,
+    /// The values a choice field offers, in display order.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub options: Vec<ChoiceOption>,
 }
 
 /// Groups in display order.
-pub const GROUPS: [(&str, &str); 3] = [("run", "Run"), ("climate", "Climate"), ("ice", "Ice")];
+pub const GROUPS: [(&str, &str); 4] = [
+    ("run", "Run"),
+    ("climate", "Climate"),
+    ("ice", "Ice"),
+    ("plants", "Plants"),
+];
+
+/// Marks a per-type path: `vegetation.types[].trait`.
+pub const PER_TYPE: &str = "vegetation.types[].";
 
 /// (path, group, label, kind, optional, explanation).
 const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
@@ -182,19 +211,238 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         false,
         "Share of the stability limit used as time step; lower is safer.",
     ),
+    (
+        "vegetation.growing_season.sea_level_temp_c",
+        "plants",
+        "Growing season at sea level",
+        FieldKind::Number,
+        false,
+        "Mean growing-season air temperature at sea level before warming.",
+    ),
+    (
+        "vegetation.growing_season.lapse_rate_k_per_km",
+        "plants",
+        "Lapse rate",
+        FieldKind::Number,
+        false,
+        "Cooling with height; with the sea-level value it sets each type's upper limit.",
+    ),
+    (
+        "vegetation.dispersal_cell_size_m",
+        "plants",
+        "Dispersal cell size",
+        FieldKind::Number,
+        false,
+        "Finest cell the seed spread runs on; 0 uses the grid's own. Coarser is faster.",
+    ),
 ];
 
-fn get<'a>(value: &'a Value, path: &str) -> Option<&'a Value> {
-    path.split('.').try_fold(value, |v, key| v.get(key))
+/// Plant-type traits in column order: (trait, label, kind, explanation).
+const PLANT_TRAITS: &[(&str, &str, FieldKind, &str)] = &[
+    (
+        "name",
+        "Type",
+        FieldKind::Text,
+        "Name shown in layers, charts and exports.",
+    ),
+    (
+        "growth_form",
+        "Growth form",
+        FieldKind::Choice,
+        "Which succession stage the type's cover counts towards.",
+    ),
+    (
+        "kernel",
+        "Dispersal kernel",
+        FieldKind::Choice,
+        "Shape of the seed-distance curve; 2Dt has the fattest tail.",
+    ),
+    (
+        "mean_dispersal_m",
+        "Mean dispersal",
+        FieldKind::Number,
+        "Mean distance local seed travels from the parent plant.",
+    ),
+    (
+        "kernel_shape_p",
+        "2Dt shape p",
+        FieldKind::Number,
+        "Tail of the 2Dt kernel: smaller is fatter. Other kernels ignore it.",
+    ),
+    (
+        "long_distance_share",
+        "Long-distance share",
+        FieldKind::Number,
+        "Share of seed carried on rare long-distance events (storms, birds).",
+    ),
+    (
+        "long_distance_mean_m",
+        "Long-distance mean",
+        FieldKind::Number,
+        "Mean distance of those long-distance events.",
+    ),
+    (
+        "age_first_seed_a",
+        "Age at first seed",
+        FieldKind::Number,
+        "Years from establishment in a cell to its first seed.",
+    ),
+    (
+        "fecundity_per_m2_a",
+        "Fecundity",
+        FieldKind::Number,
+        "Viable seeds per square metre of fertile cover per year.",
+    ),
+    (
+        "establishment_per_seed",
+        "Establishment per seed",
+        FieldKind::Number,
+        "Share of seeds on free, suitable ground that become a recruit.",
+    ),
+    (
+        "recruit_cover",
+        "Recruit cover",
+        FieldKind::Number,
+        "Cover fraction a cell gains from one year's recruits when first colonised.",
+    ),
+    (
+        "min_soil_index",
+        "Minimum soil index",
+        FieldKind::Number,
+        "Soil development needed to establish: 0 raw till, 1 mature soil.",
+    ),
+    (
+        "min_growing_season_temp_c",
+        "Minimum growing-season temperature",
+        FieldKind::Number,
+        "Growing-season warmth needed to establish and grow: the type's upper limit.",
+    ),
+    (
+        "max_slope_deg",
+        "Maximum slope",
+        FieldKind::Number,
+        "Steepest ground the type grows on.",
+    ),
+    (
+        "growth_rate_per_a",
+        "Growth rate",
+        FieldKind::Number,
+        "Yearly rate of cover increase of the logistic growth.",
+    ),
+    (
+        "max_cover",
+        "Maximum cover",
+        FieldKind::Number,
+        "Largest cover fraction the type reaches alone in a cell.",
+    ),
+    (
+        "height_class",
+        "Height class",
+        FieldKind::Integer,
+        "Canopy layer: a higher class shades every lower one.",
+    ),
+    (
+        "shade_tolerance",
+        "Shade tolerance",
+        FieldKind::Number,
+        "0 grows only in full light; 1 is unaffected by taller types' shade.",
+    ),
+    (
+        "mortality_per_a",
+        "Mortality",
+        FieldKind::Number,
+        "Share of cover lost each year; must stay below the growth rate.",
+    ),
+    (
+        "nitrogen_fixer",
+        "Nitrogen fixer",
+        FieldKind::Boolean,
+        "Speeds soil development where the type grows.",
+    ),
+];
+
+fn kernel_label(kernel: KernelFamily) -> &'static str {
+    match kernel {
+        KernelFamily::NegativeExponential => "negative exponential",
+        KernelFamily::Gaussian => "Gaussian",
+        KernelFamily::TwoDt => "2Dt (fat-tailed)",
+    }
 }
 
+fn growth_form_label(form: GrowthForm) -> &'static str {
+    match form {
+        GrowthForm::PioneerHerb => "pioneer herb",
+        GrowthForm::Graminoid => "graminoid",
+        GrowthForm::Shrub => "shrub",
+        GrowthForm::Tree => "tree",
+    }
+}
+
+/// The values of a choice trait, written as the engine reads them.
+fn choice_options(trait_name: &str) -> Vec<ChoiceOption> {
+    // Serialising a unit enum variant cannot fail.
+    let option = |value: Result<Value, serde_json::Error>, label| ChoiceOption {
+        value: value.unwrap_or(Value::Null),
+        label,
+    };
+    match trait_name {
+        "kernel" => [
+            KernelFamily::NegativeExponential,
+            KernelFamily::Gaussian,
+            KernelFamily::TwoDt,
+        ]
+        .into_iter()
+        .map(|k| option(serde_json::to_value(k), kernel_label(k)))
+        .collect(),
+        "growth_form" => [
+            GrowthForm::PioneerHerb,
+            GrowthForm::Graminoid,
+            GrowthForm::Shrub,
+            GrowthForm::Tree,
+        ]
+        .into_iter()
+        .map(|f| option(serde_json::to_value(f), growth_form_label(f)))
+        .collect(),
+        _ => Vec::new(),
+    }
+}
+
+/// Path keys, with `types[3]` read as the key `types` then the index 3.
+fn keys(path: &str) -> impl Iterator<Item = Key<'_>> {
+    path.split('.').flat_map(|part| match part.split_once('[') {
+        Some((name, index)) => {
+            let index = index.trim_end_matches(']').parse().unwrap_or(0);
+            vec![Key::Name(name), Key::Index(index)]
+        }
+        None => vec![Key::Name(part)],
+    })
+}
+
+enum Key<'a> {
+    Name(&'a str),
+    Index(usize),
+}
+
+fn get<'a>(value: &'a Value, path: &str) -> Option<&'a Value> {
+    keys(path).try_fold(value, |v, key| match key {
+        Key::Name(name) => v.get(name),
+        Key::Index(index) => v.get(index),
+    })
+}
+
+/// Sets the value at `path`, adding missing object keys; a missing list entry sets nothing.
 fn set(value: &mut Value, path: &str, new: Value) {
     let mut target = value;
-    let keys: Vec<&str> = path.split('.').collect();
-    for key in &keys[..keys.len() - 1] {
-        target = &mut target[*key];
+    for key in keys(path) {
+        target = match key {
+            Key::Name(name) => &mut target[name],
+            Key::Index(index) => match target.get_mut(index) {
+                Some(entry) => entry,
+                None => return,
+            },
+        };
     }
-    target[keys[keys.len() - 1]] = new;
+    *target = new;
 }
 
 /// The range and unit the engine states for a numeric field, by asking it to validate a
@@ -204,9 +452,11 @@ fn probe_range(defaults: &Value, path: &str, kind: FieldKind) -> Option<(f64, f6
     let far = match kind {
         FieldKind::Integer if path == "seed" => Value::from(u64::MAX),
         FieldKind::Integer if path == "n_years" => Value::from(u32::MAX),
+        // The height class is a byte.
+        FieldKind::Integer if path.ends_with(".height_class") => Value::from(u8::MAX),
         FieldKind::Integer => Value::from(i32::MAX),
         FieldKind::Number => Value::from(1e300),
-        FieldKind::Text => return None,
+        FieldKind::Text | FieldKind::Choice | FieldKind::Boolean => return None,
     };
     set(&mut probe, path, far);
     match Scenario::from_json(&probe.to_string()) {
@@ -221,11 +471,11 @@ fn probe_range(defaults: &Value, path: &str, kind: FieldKind) -> Option<(f64, f6
     }
 }
 
-/// Every form field with its default, range and unit.
+/// Every form field with its default, range and unit, the plant-type table's columns last.
 pub fn scenario_schema() -> Vec<FieldSchema> {
     let defaults: Value =
         serde_json::from_str(&Scenario::default().to_json()).unwrap_or(Value::Null);
-    FIELDS
+    let fields = FIELDS
         .iter()
         .map(|&(path, group, label, kind, optional, help)| {
             let range = probe_range(&defaults, path, kind);
@@ -240,9 +490,35 @@ pub fn scenario_schema() -> Vec<FieldSchema> {
                 min: range.as_ref().map(|r| r.0),
                 max: range.as_ref().map(|r| r.1),
                 unit: range.map(|r| r.2).unwrap_or_default(),
+                options: Vec::new(),
             }
-        })
-        .collect()
+        });
+    let default_types = get(&defaults, "vegetation.types")
+        .and_then(Value::as_array)
+        .cloned()
+        .unwrap_or_default();
+    let traits = PLANT_TRAITS.iter().map(|&(name, label, kind, help)| {
+        let range = probe_range(&defaults, &format!("vegetation.types[0].{name}"), kind);
+        FieldSchema {
+            path: format!("{PER_TYPE}{name}"),
+            group: "plants",
+            label,
+            help,
+            kind,
+            optional: false,
+            default: Value::Array(
+                default_types
+                    .iter()
+                    .map(|t| t.get(name).cloned().unwrap_or(Value::Null))
+                    .collect(),
+            ),
+            min: range.as_ref().map(|r| r.0),
+            max: range.as_ref().map(|r| r.1),
+            unit: range.map(|r| r.2).unwrap_or_default(),
+            options: choice_options(name),
+        }
+    });
+    fields.chain(traits).collect()
 }
 
 /// A scenario the engine refuses: the field it names (when it names one) and the message.
@@ -270,20 +546,96 @@ pub fn check_scenario(json: &str) -> Option<ScenarioProblem> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use forefield_engine::pft::PlantType;
 
     #[test]
     fn every_numeric_field_gets_its_range_and_a_default() {
         for field in scenario_schema() {
-            if field.kind == FieldKind::Text {
+            if !matches!(field.kind, FieldKind::Number | FieldKind::Integer) {
                 continue;
             }
             let (min, max) = (field.min.expect(&field.path), field.max.expect(&field.path));
             assert!(min < max, "{}", field.path);
-            if !field.optional {
-                let default = field.default.as_f64().expect(&field.path);
+            if field.optional {
+                continue;
+            }
+            let defaults = match &field.default {
+                Value::Array(values) => values.clone(),
+                value => vec![value.clone()],
+            };
+            assert!(!defaults.is_empty(), "{}", field.path);
+            for default in defaults {
+                let default = default.as_f64().expect(&field.path);
                 assert!((min..=max).contains(&default), "{}", field.path);
             }
         }
+    }
+
+    #[test]
+    fn the_plant_table_has_every_trait_with_the_engines_ranges() {
+        let schema = scenario_schema();
+        let columns: Vec<&str> = schema
+            .iter()
+            .filter_map(|f| f.path.strip_prefix(PER_TYPE))
+            .collect();
+        let type_json = serde_json::to_value(PlantType::conifers()).unwrap();
+        let mut traits: Vec<&str> = type_json
+            .as_object()
+            .unwrap()
+            .keys()
+            .map(String::as_str)
+            .collect();
+        let mut sorted_columns = columns.clone();
+        sorted_columns.sort_unstable();
+        traits.sort_unstable();
+        assert_eq!(sorted_columns, traits);
+        assert_eq!(columns[0], "name");
+
+        let column = |name: &str| {
+            schema
+                .iter()
+                .find(|f| f.path == format!("{PER_TYPE}{name}"))
+                .unwrap()
+        };
+        let dispersal = column("mean_dispersal_m");
+        assert_eq!(
+            (dispersal.min, dispersal.max, dispersal.unit.as_str()),
+            (Some(1.0), Some(5000.0), "m")
+        );
+        let height = column("height_class");
+        assert_eq!((height.min, height.max), (Some(1.0), Some(10.0)));
+        let defaults = PlantType::defaults();
+        assert_eq!(
+            dispersal.default,
+            serde_json::json!(defaults
+                .iter()
+                .map(|t| t.mean_dispersal_m)
+                .collect::<Vec<_>>())
+        );
+        // Every default's choice is among the options offered.
+        for name in ["kernel", "growth_form"] {
+            let field = column(name);
+            for default in field.default.as_array().unwrap() {
+                assert!(
+                    field.options.iter().any(|o| &o.value == default),
+                    "{name} {default}"
+                );
+            }
+        }
+        let problem = check_scenario(
+            r#"{"version": 1, "vegetation": {"types": [{"name": "x", "growth_form": "tree",
+            "kernel": "gaussian", "mean_dispersal_m": 9000, "kernel_shape_p": 1,
+            "long_distance_share": 0, "long_distance_mean_m": 100, "age_first_seed_a": 5,
+            "fecundity_per_m2_a": 10, "establishment_per_seed": 0.1, "recruit_cover": 0.01,
+            "min_soil_index": 0, "min_growing_season_temp_c": 5, "max_slope_deg": 30,
+            "growth_rate_per_a": 0.1, "max_cover": 0.5, "height_class": 2,
+            "shade_tolerance": 0.5, "mortality_per_a": 0.01, "nitrogen_fixer": false}]}}"#,
+        )
+        .unwrap();
+        assert_eq!(
+            problem.field.as_deref(),
+            Some("vegetation.types[0].mean_dispersal_m")
+        );
     }
 
     #[test]
