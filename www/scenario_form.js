@@ -172,7 +172,19 @@ export class ScenarioForm {
     reset.type = 'button';
     reset.id = 'plant-types-reset';
     reset.addEventListener('click', () => this.resetTypes());
-    head.append(title, reset);
+    const add = element('button', 'button small', 'Add a type');
+    add.type = 'button';
+    add.id = 'plant-types-add';
+    add.addEventListener('click', () => this.addType());
+    const tools = element('div', 'plant-types-tools');
+    tools.append(add, reset);
+    head.append(title, tools);
+    // Says why a row could not be added or removed (the engine sets how many types a
+    // scenario may have).
+    this.tableMessage = element('p', 'cell-error table-message');
+    this.tableMessage.id = 'plant-types-message';
+    this.tableMessage.setAttribute('role', 'status');
+    this.tableMessage.hidden = true;
     const intro = element('p', 'field-hint',
       'One row per plant functional type. Scroll sideways for every trait; a heading’s meaning shows on hover and in the guide below. Changed values are marked.');
     intro.id = 'plant-types-intro';
@@ -210,6 +222,10 @@ export class ScenarioForm {
       meaning.id = `pt-help-${field.trait}`;
       guide.append(term, meaning);
     }
+    const removeHead = element('th', 'col-remove', 'Remove');
+    removeHead.scope = 'col';
+    headRow.append(removeHead);
+    rangeRow.append(element('td'));
     thead.append(headRow, rangeRow);
     this.tableBody = element('tbody');
     table.append(caption, thead, this.tableBody);
@@ -217,7 +233,7 @@ export class ScenarioForm {
 
     const guideBox = element('details', 'trait-guide-box');
     guideBox.append(element('summary', null, 'What the columns mean'), guide);
-    block.append(head, intro, scroller, guideBox);
+    block.append(head, this.tableMessage, intro, scroller, guideBox);
     return block;
   }
 
@@ -229,7 +245,7 @@ export class ScenarioForm {
       if (path.startsWith('vegetation.types[')) this.inputs.delete(path);
     }
     const types = this.scenario.vegetation?.types ?? [];
-    const defaultTypes = this.defaults.vegetation?.types ?? [];
+    const defaultTypes = this.defaultTypesFor(types);
     this.tableBody.replaceChildren(...types.map((type, row) => {
       const tr = element('tr');
       tr.dataset.type = String(row);
@@ -262,14 +278,64 @@ export class ScenarioForm {
         tr.append(cell);
         this.inputs.set(path, entry);
       }
+      const removeCell = element('td', 'col-remove');
+      const remove = element('button', 'button small', 'Remove');
+      remove.type = 'button';
+      remove.id = `pt-${row}-remove`;
+      remove.addEventListener('click', () => this.removeType(row));
+      removeCell.append(remove);
+      tr.append(removeCell);
       return tr;
     }));
     types.forEach((_, row) => this.labelRow(row));
   }
 
+  /** The default type each row is compared with: the one of the same name, else the one in
+   *  the same place unless another row carries its name; none for a row with neither. */
+  defaultTypesFor(types) {
+    const defaultTypes = this.defaults.vegetation?.types ?? [];
+    const names = new Set(types.map((t) => t.name));
+    return types.map((type, row) => defaultTypes.find((d) => d.name === type.name)
+      ?? (defaultTypes[row] && !names.has(defaultTypes[row].name) ? defaultTypes[row] : undefined));
+  }
+
+  /** Puts a changed list of types in the scenario if the engine accepts that many; else
+   *  says why and changes nothing. */
+  replaceTypes(types, focusRow) {
+    const candidate = structuredClone(this.scenario);
+    setPath(candidate, 'vegetation.types', types);
+    const problem = this.check(JSON.stringify(candidate));
+    if (problem?.field === 'vegetation.types') {
+      this.tableMessage.textContent = problem.message;
+      this.tableMessage.hidden = false;
+      return;
+    }
+    this.tableMessage.hidden = true;
+    setPath(this.scenario, 'vegetation.types', types);
+    this.save();
+    this.fillTable();
+    this.onChange();
+    this.inputs.get(`vegetation.types[${Math.min(focusRow, types.length - 1)}].name`)?.input.focus();
+  }
+
+  /** A new row, a copy of the last type under a new name, to edit from there. */
+  addType() {
+    const types = structuredClone(this.scenario.vegetation.types);
+    const copy = structuredClone(types[types.length - 1]);
+    copy.name = `new type ${types.length + 1}`;
+    this.replaceTypes([...types, copy], types.length);
+  }
+
+  removeType(row) {
+    const types = structuredClone(this.scenario.vegetation.types);
+    types.splice(row, 1);
+    this.replaceTypes(types, row);
+  }
+
   /** Names each cell of a row after its type and column, for screen readers. */
   labelRow(row) {
     const name = this.inputs.get(`vegetation.types[${row}].name`)?.input.value.trim() || `type ${row + 1}`;
+    document.getElementById(`pt-${row}-remove`)?.setAttribute('aria-label', `Remove ${name}`);
     for (const field of this.traits) {
       const { input } = this.inputs.get(`vegetation.types[${row}].${field.trait}`);
       const column = field.unit ? `${field.label} (${field.unit})` : field.label;
@@ -418,6 +484,7 @@ export class ScenarioForm {
 
   /** The default plant types back; every other field stays as it is. */
   resetTypes() {
+    this.tableMessage.hidden = true;
     setPath(this.scenario, 'vegetation.types', structuredClone(this.defaults.vegetation.types));
     this.save();
     this.fillTable();

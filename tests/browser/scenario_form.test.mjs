@@ -76,7 +76,7 @@ describe('the plant-type table', () => {
     const rows = page.locator('#plant-table tbody tr');
     assert.equal(await rows.count(), defaults.vegetation.types.length);
     // Every trait of a plant type, as the engine writes it, has its column.
-    const headers = await page.locator('#plant-table thead tr:first-child th').evaluateAll(
+    const headers = await page.locator('#plant-table thead tr:first-child th[data-trait]').evaluateAll(
       (all) => all.map((th) => ({ trait: th.dataset.trait, text: th.innerText, title: th.title })));
     assert.deepEqual(headers.map((h) => h.trait).sort(), Object.keys(defaults.vegetation.types[0]).sort());
     assert.equal(headers[0].trait, 'name');
@@ -304,6 +304,52 @@ describe('the plant-type table', () => {
     await page.waitForFunction(() => document.body.dataset.state === 'ready');
     await openPlants();
     assert.equal(await page.locator(cell(4, 'age_first_seed_a')).inputValue(), String(defaults.vegetation.types[4].age_first_seed_a));
+  });
+
+  test('rows can be added and removed as far as the engine allows, and a new row reaches the run', async () => {
+    const { page } = session;
+    await typeInto('#field-n_years', String(YEARS));
+    const rows = page.locator('#plant-table tbody tr');
+    const n = defaults.vegetation.types.length;
+    await page.click('#plant-types-add');
+    assert.equal(await rows.count(), n + 1);
+    assert.equal(await page.locator(cell(n, 'name')).inputValue(), `new type ${n + 1}`);
+    assert.equal(await page.evaluate(() => document.activeElement.id), `pt-${n}-name`);
+    // A copy of the last type, under a new name; it has no default, so every cell is marked.
+    assert.equal(await page.locator(cell(n, 'mean_dispersal_m')).inputValue(),
+      String(defaults.vegetation.types[n - 1].mean_dispersal_m));
+    assert.match(await page.locator(cell(n, 'mean_dispersal_m')).evaluate((el) => el.parentElement.className), /changed/);
+    await typeInto(cell(n, 'name'), 'dwarf willows');
+    await page.locator(cell(n, 'growth_form')).selectOption({ label: 'shrub' });
+    assert.equal(await runAndWait(), 'done', await page.locator('#run-status').innerText());
+    const sent = JSON.parse(await page.evaluate(() => window.runMessages[window.runMessages.length - 1]));
+    assert.equal(sent.vegetation.types.length, n + 1);
+    assert.equal(sent.vegetation.types[n].growth_form, 'shrub');
+    const { timeline } = await page.evaluate(() => window.forefield.state());
+    assert.equal(timeline.type_names[n], 'dwarf willows');
+
+    // Removing the first row keeps the others' defaults: they are matched by name.
+    await page.click('#pt-0-remove');
+    assert.equal(await rows.count(), n);
+    assert.equal(await page.locator(cell(0, 'name')).inputValue(), defaults.vegetation.types[1].name);
+    assert.match(await page.locator(cell(0, 'mean_dispersal_m')).getAttribute('aria-describedby'), /pt-0-mean_dispersal_m-default/);
+    assert.match(await page.locator('#pt-0-mean_dispersal_m-default').textContent(),
+      new RegExp(`Default ${defaults.vegetation.types[1].mean_dispersal_m} m`));
+    assert.equal(await page.locator('#plant-table tbody tr:first-child .changed').count(), 0);
+
+    // The engine's limits: the message says how many it takes, and nothing changes.
+    for (let count = n; count < 8; count += 1) await page.click('#plant-types-add');
+    assert.equal(await rows.count(), 8);
+    await page.click('#plant-types-add');
+    assert.equal(await rows.count(), 8);
+    assert.match(await page.locator('#plant-types-message').innerText(), /9 types given; 1 to 8 allowed/);
+    while (await rows.count() > 1) await page.click('#pt-0-remove');
+    await page.click('#pt-0-remove');
+    assert.equal(await rows.count(), 1);
+    assert.match(await page.locator('#plant-types-message').innerText(), /0 types given/);
+    await page.click('#plant-types-reset');
+    assert.equal(await rows.count(), n);
+    assert.equal(await page.locator('#plant-types-message').isVisible(), false);
   });
 
   test('the cell history labels each sit on one line at 1280 x 800', async () => {
