@@ -468,6 +468,7 @@ async function boot() {
       if (!vegetation && surface.name === SAMPLE_NAME) {
         vegetation = { bytes: await fetchBytes(SAMPLE_VEGETATION_URL), name: 'valley_vegetation.tif' };
       }
+      showRunInputs();
     } catch (error) {
       setRunning(false);
       setRunState('failed', 'The sample ice grid could not be fetched.');

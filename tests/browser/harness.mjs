@@ -101,8 +101,9 @@ export async function expectLoaded(previousLoads) {
 
 /** Waits for the error area to name `fileName`, and returns its text. */
 export async function expectRefused(fileName) {
-  const alert = session.page.getByRole('alert');
-  await alert.filter({ hasText: fileName }).waitFor();
+  // The file error area, not the scenario form's own alert.
+  const alert = session.page.locator('#error-area').filter({ hasText: fileName });
+  await alert.waitFor();
   return alert.innerText();
 }
 

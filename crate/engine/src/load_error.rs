@@ -65,6 +65,12 @@ pub enum LoadProblem {
     PngNotGrey16(String),
     #[error("the height map's sidecar JSON is invalid: {0}")]
     BadSidecar(String),
+    #[error("a cell holds {value}, which is not a {what} (whole numbers 0 to {max})")]
+    BadClassCode {
+        what: &'static str,
+        value: f64,
+        max: u8,
+    },
     #[error("the grid is in EPSG:{found} but the terrain is in EPSG:{expected}; reproject it to the terrain's CRS first")]
     CrsMismatch { found: u32, expected: u32 },
     #[error("the grid (west {west_m} m, south {south_m} m, east {east_m} m, north {north_m} m) does not overlap the terrain")]

@@ -100,12 +100,10 @@ pub fn fit_vegetation(
     {
         return Err(LoadError::new(
             name,
-            LoadProblem::AbsurdValue {
-                what: "a succession stage code (whole numbers 0 ice to 6 mature forest)",
+            LoadProblem::BadClassCode {
+                what: "succession stage code (0 ice, 1 bare ground ... 6 mature forest)",
                 value: f64::from(bad),
-                unit: "",
-                min: 0.0,
-                max: f64::from(max_code),
+                max: max_code as u8,
             },
         ));
     }
