@@ -203,6 +203,10 @@ export class ScenarioForm {
     const headRow = element('tr');
     const rangeRow = element('tr', 'range-row');
     const guide = element('dl', 'trait-guide');
+    // Each column's explanation and range, read out with every cell of it (the guide's copy
+    // may sit in a closed disclosure, which screen readers skip).
+    const descriptions = element('div');
+    descriptions.hidden = true;
     for (const field of this.traits) {
       const th = element('th');
       th.scope = 'col';
@@ -216,11 +220,12 @@ export class ScenarioForm {
         field.trait === 'name' ? 'Valid range' : shortRange(field));
       if (field.trait === 'name') range.scope = 'row';
       rangeRow.append(range);
-      // One description per column, read out with every cell of it.
-      const term = element('dt', null, field.unit ? `${field.label} (${field.unit})` : field.label);
-      const meaning = element('dd', null, field.min == null ? field.help : `${field.help} Range ${rangeText(field)}.`);
-      meaning.id = `pt-help-${field.trait}`;
-      guide.append(term, meaning);
+      const meaning = field.min == null ? field.help : `${field.help} Range ${rangeText(field)}.`;
+      guide.append(element('dt', null, field.unit ? `${field.label} (${field.unit})` : field.label),
+        element('dd', null, meaning));
+      const description = element('span', null, meaning);
+      description.id = `pt-help-${field.trait}`;
+      descriptions.append(description);
     }
     const removeHead = element('th', 'col-remove', 'Remove');
     removeHead.scope = 'col';
@@ -233,7 +238,7 @@ export class ScenarioForm {
 
     const guideBox = element('details', 'trait-guide-box');
     guideBox.append(element('summary', null, 'What the columns mean'), guide);
-    block.append(head, this.tableMessage, intro, scroller, guideBox);
+    block.append(head, this.tableMessage, intro, scroller, guideBox, descriptions);
     return block;
   }
 
@@ -262,9 +267,10 @@ export class ScenarioForm {
         error.id = `${id}-error`;
         error.hidden = true;
         const defaultValue = defaultTypes[row]?.[field.trait];
-        const defaultNote = element('span', 'visually-hidden',
+        const defaultNote = element('span', null,
           defaultValue === undefined ? 'No default for this row.' : `Default ${showDefault(field, defaultValue)}.`);
         defaultNote.id = `${id}-default`;
+        defaultNote.hidden = true;
         input.title = `${field.label}: ${defaultNote.textContent}${field.min == null ? '' : ` Range ${rangeText(field)}.`}`;
         input.setAttribute('aria-describedby', `pt-help-${field.trait} ${defaultNote.id} ${error.id}`);
         const entry = { field, path, input, error, row, defaultValue };
