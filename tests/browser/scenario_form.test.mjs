@@ -383,7 +383,7 @@ describe('the plant-type table', () => {
     const point = await page.evaluate(() => window.forefield.cellCentreOnPage(200, 60));
     await page.mouse.click(point.x, point.y);
     await page.locator('#hi-cell').filter({ hasText: 'col 200, row 60' }).waitFor();
-    await page.locator('#history-heading').scrollIntoViewIfNeeded();
+    await page.locator('#history').evaluate((el) => el.scrollIntoView({ block: 'end' }));
     await page.screenshot({ path: join(ARTIFACTS, 'history-panel.png') });
     // Lines a label's text takes: the distinct tops of its text boxes.
     const labels = await page.locator('#history dt').evaluateAll((all) => all.map((dt) => {
