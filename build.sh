@@ -46,9 +46,10 @@ ensure_chromium() {
 }
 
 ensure_node_deps() {
-    if [ ! -d tests/browser/node_modules/playwright-core ]; then
+    # Reinstall whenever the lock file changed since the last install.
+    if ! cmp -s tests/browser/package-lock.json tests/browser/node_modules/.installed-lock.json; then
         say "installing browser-test dependencies (npm ci)"
-        (cd tests/browser && npm ci --no-audit --no-fund)
+        (cd tests/browser && npm ci --no-audit --no-fund && cp package-lock.json node_modules/.installed-lock.json)
     fi
 }
 
@@ -117,7 +118,10 @@ cmd_test() {
     start_server "$port"
     trap 'kill $SERVER_PID 2>/dev/null || true' EXIT
     say "browser tests (headless Debian chromium) against http://127.0.0.1:$port/"
-    (cd tests/browser && FOREFIELD_URL="http://127.0.0.1:$port/" node --test --test-concurrency=1)
+    # The export tests compare the page's files with the command line's.
+    (cd tests/browser && FOREFIELD_URL="http://127.0.0.1:$port/" \
+        FOREFIELD_CLI="$(cd "$ROOT" && realpath "$TARGET_DIR/release/forefield")" \
+        node --test --test-concurrency=1)
     kill "$SERVER_PID" 2>/dev/null || true
     trap - EXIT
     say "all tests passed in $(( $(date +%s) - started )) s"

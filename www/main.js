@@ -9,6 +9,7 @@ import { renderLegend } from './legend.js';
 import { ScenarioForm } from './scenario_form.js';
 import { TimeBar } from './timebar.js';
 import { LineChart, MultiChart } from './charts.js';
+import { ExportPanel } from './exports.js';
 
 const SAMPLE_URL = './sample-grids/valley_dem.tif';
 const SAMPLE_ICE_URL = './sample-grids/valley_ice_thickness.tif';
@@ -141,7 +142,9 @@ async function boot() {
   let vegetation = null;
   let lastRun = null;
   let summary = null;
+  let summaryCsv = null;
   let timelineInfo = null;
+  let exportPanel = null;
   let layer = 'terrain';
   let selected = null;
   let selectedHistory = null;
@@ -203,6 +206,7 @@ async function boot() {
     historyChart.setMarker(year);
     coverChart.setMarker(year);
     showHistoryYear(year);
+    exportPanel?.refresh();
     if (hovered) {
       showReadout(workspace.readout(hovered.col, hovered.row), hoveredHistory, year);
     }
@@ -235,6 +239,7 @@ async function boot() {
     selected = cell;
     selectedHistory = workspace.cellHistory(cell.col, cell.row);
     map.setSelected(cell);
+    exportPanel?.refresh();
     element('history').hidden = false;
     element('history-hint').textContent = 'The outlined cell; the dashed line is the year on the map.';
     element('hi-cell').textContent = `col ${cell.col}, row ${cell.row}`;
@@ -258,6 +263,7 @@ async function boot() {
   function clearRunResult() {
     timelineInfo = null;
     summary = null;
+    summaryCsv = null;
     selected = null;
     selectedHistory = null;
     map.setSelected(null);
@@ -270,6 +276,7 @@ async function boot() {
     areaChart.setData([], []);
     volumeChart.setData([], []);
     stageChart.setData([], []);
+    exportPanel?.refresh();
   }
 
   /** Says which ice and vegetation the next run starts from, with the engine's notes. */
@@ -401,13 +408,14 @@ async function boot() {
     } else if (message.type === 'done') {
       setRunning(false);
       try {
-        timelineInfo = workspace.loadTimeline(new Uint8Array(message.timeline));
+        timelineInfo = workspace.loadTimeline(new Uint8Array(message.timeline), lastRun.scenarioJson);
       } catch (error) {
         setRunState('failed', 'The run result could not be shown.');
         showError(error.message ?? String(error), 'Run failed');
         return;
       }
       summary = message.summary;
+      summaryCsv = message.summaryCsv;
       progress.value = progress.max;
       const mib = timelineInfo.memory_bytes / 2 ** 20;
       setRunState('done', `Done: ${timelineInfo.start_year} to ${timelineInfo.last_year}. Timeline ${formatNumber(mib, 1)} MiB.`);
@@ -436,6 +444,7 @@ async function boot() {
       timeBar.setRange(timelineInfo.start_year, timelineInfo.last_year, timelineInfo.last_year);
       drawMap({ legend: true });
       if (selected) selectCell(selected);
+      exportPanel.refresh();
     } else if (message.type === 'cancelled') {
       setRunning(false);
       setRunState('cancelled', `Cancelled at ${message.year}. ${timelineInfo ? 'The previous result stays.' : ''}`);
@@ -541,6 +550,7 @@ async function boot() {
   element('layer').addEventListener('change', (event) => {
     layer = event.target.value;
     drawMap({ legend: true });
+    exportPanel.refresh();
   });
 
   attachLoaders({
@@ -553,6 +563,26 @@ async function boot() {
   element('zoom-out').addEventListener('click', () => map.zoomOut());
   element('zoom-fit').addEventListener('click', () => map.fit());
   element('error-dismiss').addEventListener('click', clearError);
+
+  exportPanel = new ExportPanel({
+    workspace,
+    elements: {
+      png: element('export-png'), tif: element('export-tif'), cells: element('export-cells'),
+      summary: element('export-summary'), history: element('export-history'),
+      stages: element('export-stages'), ice: element('export-ice'), iceYears: element('export-ice-years'),
+      progress: element('export-progress'), status: element('export-status'), hint: element('export-hint'),
+    },
+    current: () => (timelineInfo ? {
+      layer,
+      layerLabel: element('layer').selectedOptions[0]?.textContent ?? layer,
+      year: timeBar.year(),
+      cell: selected,
+      first: timelineInfo.start_year,
+      last: timelineInfo.last_year,
+      hasPlants: timelineInfo.type_names.length > 0,
+    } : null),
+    summaryCsv: () => summaryCsv,
+  });
 
   // Hooks for the browser tests and for checking a value by hand in the console.
   window.forefield = {
@@ -567,6 +597,7 @@ async function boot() {
     chartMarkerX: () => areaChart.markerX(),
     stageChartMarkerX: () => stageChart.markerX(),
     summary: () => summary,
+    lastScenarioJson: () => lastRun?.scenarioJson ?? null,
     /** The last run's scenario stepped here through the engine's own IceRun (not the worker,
      *  not the timeline): thickness and exposure year of one cell for every year. */
     engineCellSeries: (col, row) => {
@@ -621,7 +652,7 @@ async function boot() {
     showError(`The sample valley_dem.tif could not be fetched: ${error.message}.`);
   }
   if (!workspace.hasTerrain()) {
-    mapMessage.textContent = 'No terrain yet. Use “Open terrain…” or drop a GeoTIFF here.';
+    mapMessage.textContent = 'No terrain yet. Use Open “Terrain…” or drop a GeoTIFF here.';
   }
   document.body.dataset.state = 'ready';
 }

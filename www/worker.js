@@ -1,7 +1,7 @@
 // The simulation worker: runs a scenario (ice and plants) year by year in its own copy of
 // the engine, so the page's thread only renders. Messages in: {type: 'run', ...} and {type: 'cancel'}.
 // Messages out: 'started', 'progress' (one per year), 'done' (the timeline as a transferred
-// ArrayBuffer and the yearly summary), 'cancelled' and 'failed' (with the engine's message).
+// ArrayBuffer, the yearly summary rows and the same summary as CSV), 'cancelled' and 'failed' (with the engine's message).
 
 import init, { RunRecorder } from './pkg/forefield_wasm.js';
 
@@ -46,7 +46,8 @@ async function run({
     // finish() copies the timeline out of wasm memory once; the copy's buffer is then moved
     // to the page, not copied again.
     const bytes = recorder.finish();
-    postMessage({ type: 'done', timeline: bytes.buffer, summary }, [bytes.buffer]);
+    const summaryCsv = recorder.summaryCsv();
+    postMessage({ type: 'done', timeline: bytes.buffer, summary, summaryCsv }, [bytes.buffer]);
   } catch (error) {
     postMessage({ type: 'failed', message: error?.message ?? String(error) });
   } finally {

@@ -3,13 +3,20 @@
 
 mod schema;
 
+use forefield_engine::export::csv_tables::{cell_history_csv, summary_csv, CellsCsv};
+use forefield_engine::export::geojson_shapes::{ice_outlines_geojson, stage_polygons_geojson};
+use forefield_engine::export::layer_geotiff::layer_geotiff;
+use forefield_engine::export::png_snapshot::snapshot_png;
+use forefield_engine::export::{
+    bed_renderer, layer_file_stem, layer_kind, ExportError, ExportMeta,
+};
 use forefield_engine::geotiff::read_geotiff;
 use forefield_engine::heightmap_png::read_heightmap_png;
-use forefield_engine::layers::{self, LayerKind, LayerRenderer};
-use forefield_engine::render::{render_shaded, Legend, ELEVATION_RAMP};
-use forefield_engine::scenario::Scenario;
+use forefield_engine::layers::{self, LayerRenderer};
 use forefield_engine::recorded_run::RecordedRun;
+use forefield_engine::render::{render_shaded, Legend, ELEVATION_RAMP};
 use forefield_engine::run_inputs::{self, IceInput};
+use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::IceSimulation;
 use forefield_engine::terrain::{self, Sun, TerrainDerivatives};
 use forefield_engine::timeline::{PlantQuantity, Timeline};
@@ -60,6 +67,10 @@ struct LoadedTerrain {
 struct LoadedTimeline {
     timeline: Timeline,
     renderer: LayerRenderer,
+    /// Scenario name and seed the exports state.
+    meta: ExportMeta,
+    /// The cells table being streamed out, if one is.
+    cells_csv: Option<CellsCsv>,
 }
 
 /// What the page learns about a loaded timeline.
@@ -108,10 +119,31 @@ pub struct Workspace {
 
 impl Workspace {
     fn loaded_terrain(&self) -> Result<&LoadedTerrain, JsError> {
-        self.terrain
-            .as_ref()
-            .ok_or_else(|| JsError::new("no terrain is loaded"))
+        self.terrain.as_ref().ok_or_else(no_terrain)
     }
+
+    fn run_parts(&self) -> Result<(&LoadedTerrain, &LoadedTimeline), JsError> {
+        Ok((
+            self.loaded_terrain()?,
+            self.timeline.as_ref().ok_or_else(no_run)?,
+        ))
+    }
+}
+
+fn no_terrain() -> JsError {
+    JsError::new("no terrain is loaded")
+}
+
+fn no_run() -> JsError {
+    JsError::new("no run is loaded; run the scenario first")
+}
+
+fn layer_error(error: ExportError) -> JsError {
+    JsError::new(&error.to_string())
+}
+
+fn export_error(error: ExportError) -> JsError {
+    JsError::new(&format!("export: {error}"))
 }
 
 impl Default for Workspace {
@@ -285,8 +317,9 @@ impl Workspace {
                 let scenario = scenario_json
                     .and_then(|json| Scenario::from_json(&json).ok())
                     .unwrap_or_default();
-                let (_, note) = run_inputs::outline_thickness(&terrain.dem, geojson, name, &scenario)
-                    .map_err(|e| JsError::new(&e.to_string()))?;
+                let (_, note) =
+                    run_inputs::outline_thickness(&terrain.dem, geojson, name, &scenario)
+                        .map_err(|e| JsError::new(&e.to_string()))?;
                 vec![note]
             }
             IceInput::Thickness { bytes, name } => {
@@ -306,15 +339,26 @@ impl Workspace {
     #[wasm_bindgen(js_name = checkVegetation)]
     pub fn check_vegetation(&self, bytes: &[u8], name: &str) -> Result<JsValue, JsError> {
         let terrain = self.loaded_terrain()?;
-        let (_, note) = run_inputs::fit_vegetation(&terrain.dem.geometry, bytes, name)
-            .map_err(to_js_error)?;
+        let (_, note) =
+            run_inputs::fit_vegetation(&terrain.dem.geometry, bytes, name).map_err(to_js_error)?;
         to_js(&note.into_iter().collect::<Vec<_>>())
     }
 
-    /// Takes a timeline recorded by [`RunRecorder::finish`] for the loaded terrain. On error
-    /// the timeline loaded before stays.
+    /// Takes a timeline recorded by [`RunRecorder::finish`] for the loaded terrain, and the
+    /// scenario JSON it was run with (named in exports). On error the timeline loaded before
+    /// stays.
     #[wasm_bindgen(js_name = loadTimeline)]
-    pub fn load_timeline(&mut self, bytes: &[u8]) -> Result<JsValue, JsError> {
+    pub fn load_timeline(
+        &mut self,
+        bytes: &[u8],
+        scenario_json: Option<String>,
+    ) -> Result<JsValue, JsError> {
+        let scenario = match scenario_json {
+            Some(json) => {
+                Scenario::from_json(&json).map_err(|e| JsError::new(&format!("scenario: {e}")))?
+            }
+            None => Scenario::default(),
+        };
         let terrain = self
             .terrain
             .as_ref()
@@ -331,14 +375,8 @@ impl Workspace {
                 g.n_rows
             )));
         }
-        // Shade the bed (surface less the starting ice), so ground the ice leaves shows its
-        // own relief rather than the old glacier surface.
-        let mut bed = terrain.dem.clone();
-        for (idx, z) in bed.values.iter_mut().enumerate() {
-            *z -= timeline.ice_thickness_at(idx, timeline.start_year());
-        }
-        let shade = terrain::derivatives(&bed, Sun::default()).hillshade;
-        let renderer = LayerRenderer::new(&shade, &terrain.dem.nodata);
+        // The same shading as the command line's snapshots: the bed under the starting ice.
+        let renderer = bed_renderer(&terrain.dem, &timeline);
         let info = TimelineInfo {
             start_year: timeline.start_year(),
             last_year: timeline.last_year(),
@@ -349,8 +387,104 @@ impl Workspace {
             stage_keyframe_interval: timeline.plant_intervals().map(|i| i.0),
             cover_keyframe_interval: timeline.plant_intervals().map(|i| i.1),
         };
-        self.timeline = Some(LoadedTimeline { timeline, renderer });
+        self.timeline = Some(LoadedTimeline {
+            timeline,
+            renderer,
+            meta: ExportMeta::from_scenario(&scenario),
+            cells_csv: None,
+        });
         to_js(&info)
+    }
+
+    /// PNG snapshot of a layer at a year: one pixel per cell, with legend, scale bar, north
+    /// arrow, year, scenario and caution; the same bytes as the command line's.
+    #[wasm_bindgen(js_name = exportSnapshot)]
+    pub fn export_snapshot(&mut self, layer: &str, year: i32) -> Result<Vec<u8>, JsError> {
+        let terrain = self.terrain.as_ref().ok_or_else(no_terrain)?;
+        let loaded = self.timeline.as_mut().ok_or_else(no_run)?;
+        let kind = layer_kind(&loaded.timeline, layer).map_err(export_error)?;
+        let snapshot = snapshot_png(
+            &loaded.timeline,
+            &mut loaded.renderer,
+            &terrain.dem,
+            &loaded.meta,
+            kind,
+            year,
+        )
+        .map_err(export_error)?;
+        Ok(snapshot.png)
+    }
+
+    /// A layer at a year as a GeoTIFF georeferenced like the terrain.
+    #[wasm_bindgen(js_name = exportLayerGeotiff)]
+    pub fn export_layer_geotiff(&self, layer: &str, year: i32) -> Result<Vec<u8>, JsError> {
+        let (terrain, loaded) = self.run_parts()?;
+        let kind = layer_kind(&loaded.timeline, layer).map_err(export_error)?;
+        layer_geotiff(&loaded.timeline, &terrain.dem, kind, year).map_err(export_error)
+    }
+
+    /// The file-name stem the command line uses for a layer (e.g. `cover_2` for `cover:2`).
+    #[wasm_bindgen(js_name = layerFileStem)]
+    pub fn layer_file_stem(&self, layer: &str) -> Result<String, JsError> {
+        let (_, loaded) = self.run_parts()?;
+        let kind = layer_kind(&loaded.timeline, layer).map_err(export_error)?;
+        Ok(layer_file_stem(kind))
+    }
+
+    /// Ice outlines at the end of each year as RFC 7946 GeoJSON.
+    #[wasm_bindgen(js_name = exportIceOutlines)]
+    pub fn export_ice_outlines(&self, years: Vec<i32>) -> Result<String, JsError> {
+        let (terrain, loaded) = self.run_parts()?;
+        ice_outlines_geojson(&loaded.timeline, &terrain.dem, &loaded.meta, &years)
+            .map_err(export_error)
+    }
+
+    /// Polygons of each succession stage at the end of a year as RFC 7946 GeoJSON.
+    #[wasm_bindgen(js_name = exportStagePolygons)]
+    pub fn export_stage_polygons(&self, year: i32) -> Result<String, JsError> {
+        let (terrain, loaded) = self.run_parts()?;
+        stage_polygons_geojson(&loaded.timeline, &terrain.dem, &loaded.meta, year)
+            .map_err(export_error)
+    }
+
+    /// One cell's history (every year) as RFC 4180 CSV.
+    #[wasm_bindgen(js_name = exportCellHistory)]
+    pub fn export_cell_history(&self, col: usize, row: usize) -> Result<String, JsError> {
+        let (terrain, loaded) = self.run_parts()?;
+        cell_history_csv(&loaded.timeline, &terrain.dem, &loaded.meta, &[(col, row)])
+            .map_err(export_error)
+    }
+
+    /// Starts streaming the cells of a year as RFC 4180 CSV; returns the number of data rows.
+    /// Take the table with [`Workspace::next_cells_csv_chunk`] until it returns `undefined`.
+    #[wasm_bindgen(js_name = startCellsCsv)]
+    pub fn start_cells_csv(&mut self, year: i32) -> Result<usize, JsError> {
+        let terrain = self.terrain.as_ref().ok_or_else(no_terrain)?;
+        let loaded = self.timeline.as_mut().ok_or_else(no_run)?;
+        let stream = CellsCsv::new(&loaded.timeline, &terrain.dem, &loaded.meta, year)
+            .map_err(export_error)?;
+        let total = stream.rows_total();
+        loaded.cells_csv = Some(stream);
+        Ok(total)
+    }
+
+    /// The next chunk of at most `max_rows` rows of the cells table as UTF-8 bytes, or
+    /// `undefined` when it is done (the stream is then dropped).
+    #[wasm_bindgen(js_name = nextCellsCsvChunk)]
+    pub fn next_cells_csv_chunk(&mut self, max_rows: usize) -> Result<Option<Vec<u8>>, JsError> {
+        let terrain = self.terrain.as_ref().ok_or_else(no_terrain)?;
+        let loaded = self.timeline.as_mut().ok_or_else(no_run)?;
+        let stream = loaded
+            .cells_csv
+            .as_mut()
+            .ok_or_else(|| JsError::new("no cells table is being written"))?;
+        let chunk = stream
+            .next_chunk(&loaded.timeline, &terrain.dem, max_rows.max(1))
+            .map_err(export_error)?;
+        if chunk.is_none() {
+            loaded.cells_csv = None;
+        }
+        Ok(chunk)
     }
 
     #[wasm_bindgen(js_name = hasTimeline)]
@@ -362,12 +496,8 @@ impl Workspace {
     /// runs with plants "stage", "cover:<type index>" and "soil".
     #[wasm_bindgen(js_name = renderLayer)]
     pub fn render_layer(&mut self, layer: &str, year: i32) -> Result<(), JsError> {
-        let kind = layer_kind(layer)?;
-        let loaded = self
-            .timeline
-            .as_mut()
-            .ok_or_else(|| JsError::new("no run has been made yet"))?;
-        check_layer(&loaded.timeline, kind)?;
+        let loaded = self.timeline.as_mut().ok_or_else(no_run)?;
+        let kind = layer_kind(&loaded.timeline, layer).map_err(layer_error)?;
         loaded
             .renderer
             .render(&loaded.timeline, kind, year, &mut self.image_rgba);
@@ -377,12 +507,8 @@ impl Workspace {
     /// Legend of a timeline layer.
     #[wasm_bindgen(js_name = layerLegend)]
     pub fn layer_legend(&self, layer: &str) -> Result<JsValue, JsError> {
-        let kind = layer_kind(layer)?;
-        let loaded = self
-            .timeline
-            .as_ref()
-            .ok_or_else(|| JsError::new("no run has been made yet"))?;
-        check_layer(&loaded.timeline, kind)?;
+        let loaded = self.timeline.as_ref().ok_or_else(no_run)?;
+        let kind = layer_kind(&loaded.timeline, layer).map_err(layer_error)?;
         to_js(&layers::legend(&loaded.timeline, kind))
     }
 
@@ -434,24 +560,6 @@ impl Workspace {
             cover_keyframe_years: timeline.cover_keyframe_years(),
         })
     }
-}
-
-/// A plant layer asked of a run without plants, or a type the run does not have.
-fn check_layer(timeline: &Timeline, kind: LayerKind) -> Result<(), JsError> {
-    match kind {
-        LayerKind::Stage | LayerKind::Soil | LayerKind::Cover(_) if !timeline.has_plants() => Err(
-            JsError::new("this run has no plants; run with plants to see plant layers"),
-        ),
-        LayerKind::Cover(t) if t >= timeline.type_names().len() => Err(JsError::new(&format!(
-            "plant type {t} out of range (the run has {})",
-            timeline.type_names().len()
-        ))),
-        _ => Ok(()),
-    }
-}
-
-fn layer_kind(name: &str) -> Result<LayerKind, JsError> {
-    LayerKind::from_name(name).ok_or_else(|| JsError::new(&format!("unknown layer {name:?}")))
 }
 
 /// The scenario a new page starts from, as JSON text.
@@ -561,9 +669,8 @@ impl IceRun {
             ice_name,
             None,
         )?;
-        let simulation =
-            IceSimulation::new(&grids.bed_m, &grids.ice_thickness_m, &scenario)
-                .map_err(|e| JsError::new(&e.to_string()))?;
+        let simulation = IceSimulation::new(&grids.bed_m, &grids.ice_thickness_m, &scenario)
+            .map_err(|e| JsError::new(&e.to_string()))?;
         Ok(IceRun { simulation })
     }
 
@@ -615,6 +722,8 @@ impl IceRun {
 #[wasm_bindgen]
 pub struct RunRecorder {
     run: RecordedRun,
+    meta: ExportMeta,
+    summary_csv: Option<String>,
 }
 
 #[wasm_bindgen]
@@ -638,7 +747,11 @@ impl RunRecorder {
         )?;
         let run = RecordedRun::ice_only(&grids.bed_m, &grids.ice_thickness_m, &scenario)
             .map_err(|e| JsError::new(&e.to_string()))?;
-        Ok(RunRecorder { run })
+        Ok(RunRecorder {
+            run,
+            meta: ExportMeta::from_scenario(&scenario),
+            summary_csv: None,
+        })
     }
 
     /// A coupled run of ice and plants (the scenario's `vegetation` block), starting from a
@@ -672,8 +785,12 @@ impl RunRecorder {
             &scenario,
             grids.vegetation.as_ref(),
         )
-            .map_err(|e| JsError::new(&e.to_string()))?;
-        Ok(RunRecorder { run })
+        .map_err(|e| JsError::new(&e.to_string()))?;
+        Ok(RunRecorder {
+            run,
+            meta: ExportMeta::from_scenario(&scenario),
+            summary_csv: None,
+        })
     }
 
     /// Simulates and records the next year; returns its summary row, or `null` when done.
@@ -710,7 +827,21 @@ impl RunRecorder {
             .run
             .finish()
             .map_err(|e| JsError::new(&e.to_string()))?;
+        self.summary_csv = Some(summary_csv(
+            self.run.rows(),
+            timeline.type_names(),
+            &self.meta,
+        ));
         Ok(timeline.to_bytes())
+    }
+
+    /// The yearly summary as RFC 4180 CSV, the same bytes as the command line's
+    /// `summary.csv`; available after [`RunRecorder::finish`].
+    #[wasm_bindgen(js_name = summaryCsv)]
+    pub fn summary_csv(&self) -> Result<String, JsError> {
+        self.summary_csv
+            .clone()
+            .ok_or_else(|| JsError::new("the run is not finished"))
     }
 }
 
