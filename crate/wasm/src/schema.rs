@@ -55,11 +55,12 @@ pub struct FieldSchema {
 }
 
 /// Groups in display order.
-pub const GROUPS: [(&str, &str); 4] = [
+pub const GROUPS: [(&str, &str); 5] = [
     ("run", "Run"),
     ("climate", "Climate"),
     ("ice", "Ice"),
     ("plants", "Plants"),
+    ("soil", "Soil and stages"),
 ];
 
 /// Marks a per-type path: `vegetation.types[].trait`.
@@ -234,6 +235,126 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         FieldKind::Number,
         false,
         "Finest cell the seed spread runs on; 0 uses the grid's own. Coarser is faster.",
+    ),
+    (
+        "vegetation.soil.rate_per_a",
+        "soil",
+        "Soil development rate",
+        FieldKind::Number,
+        false,
+        "Yearly rate on flat, average ground at the reference temperature.",
+    ),
+    (
+        "vegetation.soil.reference_temp_c",
+        "soil",
+        "Soil reference temperature",
+        FieldKind::Number,
+        false,
+        "Growing-season temperature at which soil develops at that rate.",
+    ),
+    (
+        "vegetation.soil.q10",
+        "soil",
+        "Soil rate per 10 K (Q10)",
+        FieldKind::Number,
+        false,
+        "Factor by which the rate grows per 10 K of warmth.",
+    ),
+    (
+        "vegetation.soil.slope_half_rate_deg",
+        "soil",
+        "Slope halving the rate",
+        FieldKind::Number,
+        false,
+        "Steep ground loses fines: at this slope soil develops half as fast.",
+    ),
+    (
+        "vegetation.soil.nitrogen_fixer_boost",
+        "soil",
+        "Nitrogen-fixer boost",
+        FieldKind::Number,
+        false,
+        "Relative speed-up of soil development under full nitrogen-fixer cover.",
+    ),
+    (
+        "vegetation.soil.moisture_effect",
+        "soil",
+        "Moisture effect",
+        FieldKind::Number,
+        false,
+        "Relative difference in rate between the driest and the wettest ground.",
+    ),
+    (
+        "vegetation.stages.pioneer_total_cover",
+        "soil",
+        "Pioneer: total cover",
+        FieldKind::Number,
+        false,
+        "Plant cover from which bare ground counts as pioneer stage.",
+    ),
+    (
+        "vegetation.stages.meadow_total_cover",
+        "soil",
+        "Meadow: total cover",
+        FieldKind::Number,
+        false,
+        "Plant cover a meadow needs, with the graminoid cover below.",
+    ),
+    (
+        "vegetation.stages.meadow_graminoid_cover",
+        "soil",
+        "Meadow: graminoid cover",
+        FieldKind::Number,
+        false,
+        "Grass and sedge cover a meadow needs.",
+    ),
+    (
+        "vegetation.stages.shrubland_woody_cover",
+        "soil",
+        "Shrubland: woody cover",
+        FieldKind::Number,
+        false,
+        "Shrub and tree cover from which a cell counts as shrubland.",
+    ),
+    (
+        "vegetation.stages.young_forest_tree_cover",
+        "soil",
+        "Young forest: tree cover",
+        FieldKind::Number,
+        false,
+        "Tree cover from which a cell counts as young forest.",
+    ),
+    (
+        "vegetation.stages.mature_forest_tree_cover",
+        "soil",
+        "Mature forest: tree cover",
+        FieldKind::Number,
+        false,
+        "Tree cover a mature forest needs, with the age below.",
+    ),
+    (
+        "vegetation.stages.mature_forest_age_a",
+        "soil",
+        "Mature forest: tree age",
+        FieldKind::Number,
+        false,
+        "Years since the oldest tree type present established in the cell.",
+    ),
+    (
+        "vegetation.seed_bank.years_of_seed",
+        "soil",
+        "Seed bank after a burn",
+        FieldKind::Number,
+        false,
+        "Seed left in the soil per unit of burnt cover, in years of seed rain.",
+    ),
+    (
+        "vegetation.seed_bank.duration_a",
+        "soil",
+        "Seed bank lasts",
+        FieldKind::Number,
+        false,
+        "Years the bank keeps germinating after a burn; it empties evenly.",
     ),
 ];
 
@@ -568,6 +689,29 @@ mod tests {
                 let default = default.as_f64().expect(&field.path);
                 assert!((min..=max).contains(&default), "{}", field.path);
             }
+        }
+    }
+
+    #[test]
+    fn every_vegetation_number_outside_the_table_has_a_field() {
+        fn leaves(prefix: &str, value: &Value, out: &mut Vec<String>) {
+            match value {
+                Value::Object(map) => {
+                    for (key, inner) in map {
+                        if key != "types" {
+                            leaves(&format!("{prefix}.{key}"), inner, out);
+                        }
+                    }
+                }
+                _ => out.push(prefix.to_string()),
+            }
+        }
+        let defaults = serde_json::to_value(Scenario::default().vegetation).unwrap();
+        let mut paths = Vec::new();
+        leaves("vegetation", &defaults, &mut paths);
+        let schema = scenario_schema();
+        for path in paths {
+            assert!(schema.iter().any(|f| f.path == path), "{path} has no field");
         }
     }
 
