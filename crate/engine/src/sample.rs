@@ -67,13 +67,14 @@ pub fn generate(n: usize) -> SampleValley {
     let slope = crate::terrain::derivatives(&surface_m, crate::terrain::Sun::default()).slope_deg;
     let vegetation: Vec<f32> = (0..cells)
         .map(|idx| {
-            let row = idx / n;
+            let (row, col) = (idx / n, idx % n);
+            let u = (col as f64 + 0.5) / n as f64;
             let v = (row as f64 + 0.5) / n as f64;
             f32::from(vegetation_at(
                 f64::from(bed[idx]),
                 f64::from(ice[idx]),
                 slope[idx],
-                v,
+                (v, cross_valley(u, v)),
                 idx,
             ))
         })
@@ -92,9 +93,23 @@ const MORAINE_V: f64 = 0.66;
 const HEAD_V: f64 = 0.0;
 const BASIN_DEPTH_M: f64 = 110.0;
 
+/// Distance across the valley from its winding centreline, as a fraction of the grid width.
+fn cross_valley(u: f64, v: f64) -> f64 {
+    (u - (0.5 + 0.07 * libm::sin(2.6 * v + 0.4))).abs()
+}
+
+/// Down-valley position of the older moraine's crest at `d` from the centreline: furthest
+/// down in the middle and curving back up-valley towards the walls, as a terminal moraine
+/// bows out where the tongue reached furthest.
+fn moraine_v(d: f64) -> f64 {
+    MORAINE_V - 2.0 * d * d
+}
+
+/// Half-width of the glacier at its moraine stage, as a fraction of the grid width.
+const MORAINE_STAGE_HALF_WIDTH: f64 = 0.17;
+
 fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
-    let centre_u = 0.5 + 0.07 * libm::sin(2.6 * v + 0.4);
-    let d = (u - centre_u).abs();
+    let d = cross_valley(u, v);
     let floor = 2950.0 - 1550.0 * libm::pow(v, 0.85);
     let ridge = 2850.0 - 400.0 * v;
     // U-shaped trough up to a crest at d = 0.3, falling towards neighbouring valleys beyond.
@@ -117,7 +132,7 @@ fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
     z -= BASIN_DEPTH_M * gauss(v - 0.42, 0.05) * gauss(d, 0.07);
     z += 60.0 * gauss(v - 0.495, 0.018) * gauss(d, 0.12);
     // Older terminal moraine arc below the present tongue.
-    z += 28.0 * gauss(v - MORAINE_V - 2.0 * d * d, 0.012) * gauss(d, 0.14);
+    z += 28.0 * gauss(v - moraine_v(d), 0.012) * gauss(d, 0.14);
     // Rough rock: value noise with octaves from about 1.6 km down to 100 m.
     let noise = fractal_noise(u * size_km / 1.6, v * size_km / 1.6, 5);
     let wall = cross.min(1.0);
@@ -139,16 +154,24 @@ fn valley_at(u: f64, v: f64, size_km: f64) -> (f64, f64) {
     (z, if ice > 1.0 { ice } else { 0.0 })
 }
 
-fn vegetation_at(bed_m: f64, ice_m: f64, slope_deg: f32, v: f64, idx: usize) -> u8 {
+/// Stage code of a cell at `(v, d)`: down-valley position and distance from the centreline.
+fn vegetation_at(bed_m: f64, ice_m: f64, slope_deg: f32, (v, d): (f64, f64), idx: usize) -> u8 {
     use vegetation_code::*;
     if ice_m > 0.0 {
         return ICE;
     }
-    // Ground left by the ice since the moraine stage is still young and barely vegetated.
     let jitter = 40.0 * (hash(idx as u64 ^ 0x9e37_79b9) - 0.5);
     let z = bed_m + jitter;
-    if v < MORAINE_V + 0.01 && bed_m < 2700.0 && slope_deg < 30.0 {
-        return if v > MORAINE_V - 0.04 { PIONEER } else { BARE };
+    // Ground inside the moraine, left by the ice since its moraine stage, is still young and
+    // barely vegetated: pioneers just inside the crest, bare till nearer the present ice.
+    let front = moraine_v(d) + 0.01;
+    let edge = MORAINE_STAGE_HALF_WIDTH + 0.015 * (hash(idx as u64 ^ 0x7f4a_7c15) - 0.5);
+    if d < edge && v < front && bed_m < 2700.0 && slope_deg < 30.0 {
+        return if v > front - 0.05 || d > edge - 0.03 {
+            PIONEER
+        } else {
+            BARE
+        };
     }
     if slope_deg > 42.0 || z > 2750.0 {
         BARE
