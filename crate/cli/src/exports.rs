@@ -3,6 +3,7 @@
 //! `forefield export`.
 
 use std::path::Path;
+use std::time::Instant;
 
 use anyhow::{bail, Context, Result};
 use forefield_engine::export::csv_tables::{cell_history_csv, CellsCsv, DEFAULT_CHUNK_ROWS};
@@ -143,6 +144,16 @@ pub fn write_file(path: &Path, bytes: &[u8]) -> Result<()> {
     Ok(())
 }
 
+/// Writes an export and says how long making it took (the engine keeps no clock).
+fn write_timed(path: &Path, make: impl FnOnce() -> Result<Vec<u8>>) -> Result<()> {
+    let started = Instant::now();
+    let bytes = make()?;
+    let seconds = started.elapsed().as_secs_f64();
+    std::fs::write(path, &bytes).with_context(|| format!("writing {}", path.display()))?;
+    println!("wrote {} ({seconds:.2} s)", path.display());
+    Ok(())
+}
+
 /// Writes every export `request` asks for into `out_dir`.
 pub fn write_exports(
     out_dir: &Path,
@@ -161,43 +172,35 @@ pub fn write_exports(
         for &kind in &layers {
             let stem = layer_file_stem(kind);
             if let Some(renderer) = renderer.as_mut() {
-                let shot = snapshot_png(timeline, renderer, dem, meta, kind, year)?;
-                write_file(
-                    &out_dir.join(format!("snapshot_{stem}_{year}.png")),
-                    &shot.png,
-                )?;
+                write_timed(&out_dir.join(format!("snapshot_{stem}_{year}.png")), || {
+                    Ok(snapshot_png(timeline, renderer, dem, meta, kind, year)?.png)
+                })?;
             }
             if wants("tif") {
-                let bytes = layer_geotiff(timeline, dem, kind, year)?;
-                write_file(&out_dir.join(format!("layer_{stem}_{year}.tif")), &bytes)?;
+                write_timed(&out_dir.join(format!("layer_{stem}_{year}.tif")), || {
+                    Ok(layer_geotiff(timeline, dem, kind, year)?)
+                })?;
             }
         }
         if wants("csv") {
-            write_cells_csv(
-                &out_dir.join(format!("cells_{year}.csv")),
-                timeline,
-                dem,
-                meta,
-                year,
-            )?;
+            let path = out_dir.join(format!("cells_{year}.csv"));
+            write_cells_csv(&path, timeline, dem, meta, year)?;
         }
         if wants("geojson") && timeline.has_plants() {
-            let text = stage_polygons_geojson(timeline, dem, meta, year)?;
-            write_file(
-                &out_dir.join(format!("stages_{year}.geojson")),
-                text.as_bytes(),
-            )?;
+            write_timed(&out_dir.join(format!("stages_{year}.geojson")), || {
+                Ok(stage_polygons_geojson(timeline, dem, meta, year)?.into_bytes())
+            })?;
         }
     }
     if wants("geojson") {
-        let text = ice_outlines_geojson(timeline, dem, meta, &years)?;
-        write_file(&out_dir.join("ice_outlines.geojson"), text.as_bytes())?;
+        write_timed(&out_dir.join("ice_outlines.geojson"), || {
+            Ok(ice_outlines_geojson(timeline, dem, meta, &years)?.into_bytes())
+        })?;
     }
     for &(col, row) in &request.cells {
-        let text = cell_history_csv(timeline, dem, meta, &[(col, row)])?;
-        write_file(
+        write_timed(
             &out_dir.join(format!("cell_{col}_{row}_history.csv")),
-            text.as_bytes(),
+            || Ok(cell_history_csv(timeline, dem, meta, &[(col, row)])?.into_bytes()),
         )?;
     }
     Ok(())
@@ -212,6 +215,7 @@ fn write_cells_csv(
     year: i32,
 ) -> Result<()> {
     use std::io::Write as _;
+    let started = Instant::now();
     let file =
         std::fs::File::create(path).with_context(|| format!("writing {}", path.display()))?;
     let mut file = std::io::BufWriter::new(file);
@@ -222,6 +226,55 @@ fn write_cells_csv(
     }
     file.flush()
         .with_context(|| format!("writing {}", path.display()))?;
-    println!("wrote {} ({} cells)", path.display(), table.rows_total());
+    println!(
+        "wrote {} ({} cells, {:.2} s)",
+        path.display(),
+        table.rows_total(),
+        started.elapsed().as_secs_f64()
+    );
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use forefield_engine::timeline::{TimelineRecorder, DEFAULT_FRAME_BUDGET_BYTES};
+
+    fn ice_timeline() -> Timeline {
+        let mut recorder =
+            TimelineRecorder::new(2, 2000, 3, &[5.0, 0.0], DEFAULT_FRAME_BUDGET_BYTES);
+        for year in 2001..=2003 {
+            recorder.record_year(year, &[5.0, 0.0]);
+        }
+        recorder.finish(&[5.0, 0.0])
+    }
+
+    #[test]
+    fn years_layers_and_formats_parse_and_refuse_what_the_run_lacks() {
+        let timeline = ice_timeline();
+        let mut request = ExportRequest::default();
+        assert_eq!(request.years(&timeline).unwrap(), vec![2003]);
+        request.years = Some("start,2002".into());
+        assert_eq!(request.years(&timeline).unwrap(), vec![2000, 2002]);
+        request.years = Some("all".into());
+        assert_eq!(request.years(&timeline).unwrap().len(), 4);
+        request.years = Some("2010".into());
+        assert!(request.years(&timeline).is_err());
+        assert_eq!(
+            request.layers(&timeline).unwrap(),
+            vec![LayerKind::IceThickness]
+        );
+        request.layers = Some("stage".into());
+        assert!(
+            request.layers(&timeline).is_err(),
+            "an ice-only run has no stages"
+        );
+        request.formats = Some("png,kml".into());
+        assert!(request.formats().is_err());
+        let words: Vec<String> = ["--cell", "3,4"].iter().map(|s| s.to_string()).collect();
+        let mut it = words.iter();
+        let first = it.next().unwrap();
+        assert!(request.take_option(first, &mut it).unwrap());
+        assert_eq!(request.cells, vec![(3, 4)]);
+    }
 }
