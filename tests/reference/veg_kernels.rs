@@ -197,7 +197,7 @@ fn fast_convolution_matches_direct_convolution() {
     // The direct convolution reaches every cell (radius = grid size), so both see the same
     // kernel. Stated error (relative L1): 1 % at full resolution, where the pyramid moves
     // only wide components; 1.5 % when the filters start on 2 x 2 blocks. Measured: 0.5 % /
-    // 0.6 % / 0.4 % (exponential / Gaussian / 2Dt) at full resolution, 0.8-1.1 % on blocks;
+    // 0.6 % / 0.4 % (exponential / Gaussian / 2Dt) at full resolution, 0.6-1.2 % on blocks;
     // with every component at full resolution it is 3e-5.
     let n = 120;
     let cell = 5.0;

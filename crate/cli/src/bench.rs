@@ -5,17 +5,33 @@
 use std::path::PathBuf;
 use std::time::Instant;
 
-use anyhow::{Context, Result};
+use anyhow::{bail, Context, Result};
 use forefield_engine::coupled::CoupledSimulation;
 use forefield_engine::geotiff::read_geotiff;
 use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation};
+use forefield_engine::Grid;
 
 /// The scenario both the native and the wasm benchmark run (kept in step with bench.mjs).
 pub const BENCH_SCENARIO_JSON: &str = r#"{"version": 1, "name": "benchmark", "n_years": 200}"#;
-const REPEATS: usize = 3;
+const DEFAULT_REPEATS: usize = 3;
 
+/// `--grids DIR` (default sample-grids/large), `--repeats N` (default 3), `--only ice|coupled`.
 pub fn bench(args: &[String]) -> Result<()> {
+    let repeats = match crate::flag(args, "--repeats")? {
+        Some(s) => s
+            .parse::<usize>()
+            .ok()
+            .filter(|&n| n > 0)
+            .with_context(|| format!("--repeats {s:?} is not a whole number above 0"))?,
+        None => DEFAULT_REPEATS,
+    };
+    let only = crate::flag(args, "--only")?;
+    if let Some(only) = &only {
+        if only != "ice" && only != "coupled" {
+            bail!("--only {only:?}: give ice or coupled");
+        }
+    }
     let dir =
         PathBuf::from(crate::flag(args, "--grids")?.unwrap_or_else(|| "sample-grids/large".into()));
     let read = |name: &str| -> Result<_> {
@@ -27,19 +43,39 @@ pub fn bench(args: &[String]) -> Result<()> {
     let ice = read("valley_ice_thickness.tif")?;
     let bed = bed_from_surface(&surface, &ice)?;
     let scenario = Scenario::from_json(BENCH_SCENARIO_JSON)?;
-    let mut seconds = Vec::with_capacity(REPEATS);
+    if only.as_deref() != Some("coupled") {
+        bench_ice(&bed, &ice, &scenario, repeats)?;
+    }
+    if only.as_deref() != Some("ice") {
+        let stages = read("valley_vegetation.tif")?;
+        bench_coupled(&bed, &ice, &stages, &scenario, repeats)?;
+    }
+    Ok(())
+}
+
+/// Sorted seconds: (median, min, max).
+fn spread(mut seconds: Vec<f64>) -> (f64, f64, f64) {
+    seconds.sort_by(f64::total_cmp);
+    (
+        seconds[seconds.len() / 2],
+        seconds[0],
+        seconds[seconds.len() - 1],
+    )
+}
+
+fn bench_ice(bed: &Grid, ice: &Grid, scenario: &Scenario, repeats: usize) -> Result<()> {
+    let mut seconds = Vec::with_capacity(repeats);
     let mut last = None;
-    for _ in 0..REPEATS {
+    for _ in 0..repeats {
         // Only the yearly steps are timed, as in bench.mjs, where setup also decodes GeoTIFFs.
-        let mut simulation = IceSimulation::new(&bed, &ice, &scenario)?;
+        let mut simulation = IceSimulation::new(bed, ice, scenario)?;
         let started = Instant::now();
         while simulation.step_year().is_some() {}
         seconds.push(started.elapsed().as_secs_f64());
         last = Some(simulation);
     }
-    let simulation = last.expect("REPEATS > 0");
-    seconds.sort_by(f64::total_cmp);
-    let median = seconds[REPEATS / 2];
+    let simulation = last.context("no repeats")?;
+    let (median, min, max) = spread(seconds);
     let years = simulation.summary().len().saturating_sub(1).max(1);
     let cell_updates: u64 = simulation
         .summary()
@@ -50,23 +86,29 @@ pub fn bench(args: &[String]) -> Result<()> {
     let end = simulation.summary()[years];
     let g = simulation.geometry();
     println!(
-        "{{\"bench\":\"ice_run\",\"side\":\"native\",\"grid\":\"{}x{}\",\"years\":{years},\"repeats\":{REPEATS},\"seconds_median\":{median:.4},\"seconds_min\":{:.4},\"seconds_max\":{:.4},\"seconds_per_year\":{:.6},\"ice_cell_updates_per_second\":{:.0},\"ice_cells_start\":{},\"ice_area_km2_start\":{:.3},\"ice_area_km2_end\":{:.3}}}",
+        "{{\"bench\":\"ice_run\",\"side\":\"native\",\"grid\":\"{}x{}\",\"years\":{years},\"repeats\":{repeats},\"seconds_median\":{median:.4},\"seconds_min\":{min:.4},\"seconds_max\":{max:.4},\"seconds_per_year\":{:.6},\"ice_cell_updates_per_second\":{:.0},\"ice_cells_start\":{},\"ice_area_km2_start\":{:.3},\"ice_area_km2_end\":{:.3}}}",
         g.n_cols,
         g.n_rows,
-        seconds[0],
-        seconds[REPEATS - 1],
         median / years as f64,
         cell_updates as f64 / median,
         (start.ice_area_km2 * 1e6 / g.cell_area_m2()).round(),
         start.ice_area_km2,
         end.ice_area_km2,
     );
+    Ok(())
+}
 
-    let stages = read("valley_vegetation.tif")?;
-    let mut seconds = Vec::with_capacity(REPEATS);
+fn bench_coupled(
+    bed: &Grid,
+    ice: &Grid,
+    stages: &Grid,
+    scenario: &Scenario,
+    repeats: usize,
+) -> Result<()> {
+    let mut seconds = Vec::with_capacity(repeats);
     let mut last = None;
-    for _ in 0..REPEATS {
-        let mut run = CoupledSimulation::new(&bed, &ice, &scenario, Some(&stages))?;
+    for _ in 0..repeats {
+        let mut run = CoupledSimulation::new(bed, ice, scenario, Some(stages))?;
         let started = Instant::now();
         let mut end = None;
         while let Some(row) = run.step_year() {
@@ -76,16 +118,15 @@ pub fn bench(args: &[String]) -> Result<()> {
         last = end;
     }
     let end = last.context("the benchmark scenario simulates no years")?;
-    seconds.sort_by(f64::total_cmp);
-    let median = seconds[REPEATS / 2];
+    let (median, min, max) = spread(seconds);
+    let years = scenario.n_years as usize;
     let n_types = scenario.vegetation.types.len();
     let forest_km2 = end.vegetation.stage_area_km2[5] + end.vegetation.stage_area_km2[6];
+    let g = bed.geometry;
     println!(
-        "{{\"bench\":\"coupled_run\",\"side\":\"native\",\"grid\":\"{}x{}\",\"years\":{years},\"plant_types\":{n_types},\"repeats\":{REPEATS},\"seconds_median\":{median:.4},\"seconds_min\":{:.4},\"seconds_max\":{:.4},\"seconds_per_year\":{:.6},\"cell_years_per_second\":{:.0},\"forest_area_km2_end\":{forest_km2:.3}}}",
+        "{{\"bench\":\"coupled_run\",\"side\":\"native\",\"grid\":\"{}x{}\",\"years\":{years},\"plant_types\":{n_types},\"repeats\":{repeats},\"seconds_median\":{median:.4},\"seconds_min\":{min:.4},\"seconds_max\":{max:.4},\"seconds_per_year\":{:.6},\"cell_years_per_second\":{:.0},\"forest_area_km2_end\":{forest_km2:.3}}}",
         g.n_cols,
         g.n_rows,
-        seconds[0],
-        seconds[REPEATS - 1],
         median / years as f64,
         (g.n_cells() * years) as f64 / median,
     );

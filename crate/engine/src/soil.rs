@@ -93,7 +93,9 @@ impl SoilParams {
 /// One year of soil development.
 #[inline]
 pub fn develop(soil: f32, site_rate_per_a: f32, temperature_factor: f32, fixer_boost: f32) -> f32 {
-    let k = (site_rate_per_a * temperature_factor * fixer_boost).min(1.0);
+    // A comparison rather than `f32::min`, which does not vectorise on wasm.
+    let k = site_rate_per_a * temperature_factor * fixer_boost;
+    let k = if k < 1.0 { k } else { 1.0 };
     soil + k * (1.0 - soil)
 }
 

@@ -20,7 +20,9 @@ use crate::dispersal::{
     uniform_open, validate_kernel, Boundary, DispersalOperator, DispersalScratch, Kernel,
 };
 use crate::disturbance::{Disturbance, DisturbanceKind, ScheduledDisturbance, SeedBankParams};
-use crate::establishment::{larger, suitability, update_cover, GrowingSeasonParams, TypeRates};
+use crate::establishment::{
+    larger, smaller, suitability, update_cover, GrowingSeasonParams, TypeRates,
+};
 use crate::exposure::ICE_COVER_THRESHOLD_M;
 use crate::grid::GridGeometry;
 use crate::pft::{check_range, GrowthForm, PlantType, VegetationError, MAX_TYPES};
@@ -34,6 +36,9 @@ pub const N_STAGES: usize = 7;
 /// Most long-distance events drawn per type and year; beyond it each event carries more
 /// seed, so the cost stays bounded on large grids.
 pub const MAX_LONG_DISTANCE_EVENTS: usize = 256;
+
+/// Oldest age a cell records for a type, years.
+pub const MAX_AGE_A: f32 = 65_535.0;
 
 /// Cover below which a type counts as gone from a cell.
 const EXTINCT_COVER: f32 = 1e-5;
@@ -106,8 +111,10 @@ pub struct VegetationState {
     pub n_types: usize,
     /// Cover fraction per type and cell, type-major: `cover[t * n_cells + cell]`.
     pub cover: Vec<f32>,
-    /// Years since the type established in the cell (0 where absent), type-major.
-    pub age_a: Vec<u16>,
+    /// Years since the type established in the cell (0 where absent; whole years, at most
+    /// [`MAX_AGE_A`]), type-major. `f32` like the covers, so the cell loop runs in one lane
+    /// width and vectorises.
+    pub age_a: Vec<f32>,
     /// Soil development index per cell, [0, 1].
     pub soil: Vec<f32>,
     /// Succession stage per cell ([`vegetation_code`]).
@@ -121,7 +128,7 @@ impl VegetationState {
     }
 
     /// Age layer of one type, years.
-    pub fn age_of(&self, type_idx: usize) -> &[u16] {
+    pub fn age_of(&self, type_idx: usize) -> &[f32] {
         &self.age_a[type_idx * self.n_cells..(type_idx + 1) * self.n_cells]
     }
 }
@@ -144,44 +151,44 @@ pub struct VegetationYearSummary {
 struct StageStart {
     cover: [f32; 4],
     soil: f32,
-    tree_age_a: u16,
+    tree_age_a: f32,
 }
 
 const STAGE_START: [StageStart; N_STAGES] = [
     StageStart {
         cover: [0.0, 0.0, 0.0, 0.0],
         soil: 0.0,
-        tree_age_a: 0,
+        tree_age_a: 0.0,
     },
     StageStart {
         cover: [0.0, 0.0, 0.0, 0.0],
         soil: 0.05,
-        tree_age_a: 0,
+        tree_age_a: 0.0,
     },
     StageStart {
         cover: [0.15, 0.0, 0.0, 0.0],
         soil: 0.1,
-        tree_age_a: 0,
+        tree_age_a: 0.0,
     },
     StageStart {
         cover: [0.1, 0.6, 0.0, 0.0],
         soil: 0.4,
-        tree_age_a: 0,
+        tree_age_a: 0.0,
     },
     StageStart {
         cover: [0.05, 0.3, 0.5, 0.0],
         soil: 0.6,
-        tree_age_a: 0,
+        tree_age_a: 0.0,
     },
     StageStart {
         cover: [0.0, 0.2, 0.2, 0.45],
         soil: 0.8,
-        tree_age_a: 40,
+        tree_age_a: 40.0,
     },
     StageStart {
         cover: [0.0, 0.1, 0.1, 0.75],
         soil: 1.0,
-        tree_age_a: 150,
+        tree_age_a: 150.0,
     },
 ];
 
@@ -200,7 +207,7 @@ struct TypeSetup {
     rates: TypeRates,
     form: GrowthForm,
     nitrogen_fixer: bool,
-    age_first_seed_a: u16,
+    age_first_seed_a: f32,
     /// Seeds per cell per unit cover per year.
     seeds_per_cover: f32,
     long_distance_share: f32,
@@ -237,25 +244,38 @@ pub struct VegetationModel {
     production: Vec<f32>,
     rain: Vec<f32>,
     row_production: Vec<f64>,
-    /// Per cell and year: [`CELL_OPEN`], [`CELL_FRESH`] or [`CELL_CLOSED`].
-    cell_kind: Vec<u8>,
+    /// Per cell and year: [`CELL_OPEN`], [`CELL_FRESH`] or [`CELL_CLOSED`] (`f32` codes,
+    /// so the cell loop has one lane width).
+    cell_kind: Vec<f32>,
     /// Per-cell sums of one block over the types updated so far this year: all cover (the
     /// canopy the next shorter type grows under), graminoid, woody and tree cover, oldest
     /// tree age.
     block_sums: [Vec<f32>; 5],
     rng: Pcg32,
     disturbances: Vec<ScheduledDisturbance>,
+    /// Per chunk of [`CHUNK`] cells: warmest base temperature and gentlest slope.
+    chunk_max_temp_c: Vec<f32>,
+    chunk_min_slope_deg: Vec<f32>,
+    /// Per chunk and year: richest soil of its open or fresh cells (-1 if none).
+    chunk_max_soil: Vec<f32>,
+    /// Per type and chunk (type-major): whether the type had cover there last year.
+    chunk_occupied: Vec<bool>,
 }
 
 /// Cells per block of the yearly update.
 const BLOCK: usize = 1024;
 
+/// Cells per chunk: a type is skipped in a chunk where it had no cover last year and no
+/// cell can take it this year (too cold, too poor or too steep everywhere), where the
+/// update would leave every value as it is.
+const CHUNK: usize = 64;
+
 /// Ice-free ground that was ice-free last year too.
-const CELL_OPEN: u8 = 0;
+const CELL_OPEN: f32 = 0.0;
 /// Ground the ice left this year: no plants, no soil yet, colonisable.
-const CELL_FRESH: u8 = 1;
+const CELL_FRESH: f32 = 1.0;
 /// Under ice or nodata: nothing grows.
-const CELL_CLOSED: u8 = 2;
+const CELL_CLOSED: f32 = 2.0;
 
 impl VegetationModel {
     /// Builds the model and its initial state. `elevation_m` is the ground (bed) elevation
@@ -320,7 +340,7 @@ impl VegetationModel {
                     rates: TypeRates::from(t),
                     form: t.growth_form,
                     nitrogen_fixer: t.nitrogen_fixer,
-                    age_first_seed_a: t.age_first_seed_a.round() as u16,
+                    age_first_seed_a: t.age_first_seed_a.round() as f32,
                     seeds_per_cover: t.fecundity_per_m2_a as f32 * cell_area_m2,
                     long_distance_share: t.long_distance_share as f32,
                     long_distance_kernel,
@@ -363,7 +383,7 @@ impl VegetationModel {
             n_cells: n,
             n_types,
             cover: vec![0.0; n_types * n],
-            age_a: vec![0; n_types * n],
+            age_a: vec![0.0; n_types * n],
             soil: vec![0.0; n],
             stage: vec![vegetation_code::BARE; n],
         };
@@ -395,13 +415,13 @@ impl VegetationModel {
                         let age = if setup.form == GrowthForm::Tree {
                             start.tree_age_a.max(setup.age_first_seed_a)
                         } else {
-                            setup.age_first_seed_a.saturating_add(10)
+                            (setup.age_first_seed_a + 10.0).min(MAX_AGE_A)
                         };
                         (start.cover[form] / same_form as f32, age)
                     }
                     None => {
                         let potential = params.types[t].potential_cover(f64::from(suit)) as f32;
-                        (potential, setup.age_first_seed_a.saturating_add(100))
+                        (potential, (setup.age_first_seed_a + 100.0).min(MAX_AGE_A))
                     }
                 };
                 let c = target.min(1.0 - canopy).max(0.0);
@@ -445,7 +465,21 @@ impl VegetationModel {
             block_sums: std::array::from_fn(|_| vec![0.0; BLOCK]),
             rng: Pcg32::seed_from_u64(seed),
             disturbances: Vec::new(),
+            chunk_max_temp_c: Vec::new(),
+            chunk_min_slope_deg: Vec::new(),
+            chunk_max_soil: vec![0.0; n.div_ceil(CHUNK)],
+            chunk_occupied: Vec::new(),
         };
+        model.chunk_max_temp_c = model.temp_base_c.chunks(CHUNK).map(chunk_max).collect();
+        model.chunk_min_slope_deg = model
+            .slope_deg
+            .chunks(CHUNK)
+            .map(|chunk| -chunk_max_negated(chunk))
+            .collect();
+        model.chunk_occupied = (0..n_types)
+            .flat_map(|t| model.state.cover[t * n..(t + 1) * n].chunks(CHUNK))
+            .map(|chunk| chunk.iter().any(|&c| c > 0.0))
+            .collect();
         for i in 0..n {
             if model.state.stage[i] != vegetation_code::ICE {
                 model.state.stage[i] = stage(&model.cell_cover(i), &model.thresholds);
@@ -548,9 +582,8 @@ impl VegetationModel {
                     cover.woody += c;
                     cover.tree += c;
                     if c >= 0.05 {
-                        cover.oldest_tree_age_a = cover
-                            .oldest_tree_age_a
-                            .max(f32::from(self.state.age_a[t * n + i]));
+                        cover.oldest_tree_age_a =
+                            cover.oldest_tree_age_a.max(self.state.age_a[t * n + i]);
                     }
                 }
                 GrowthForm::PioneerHerb => {}
@@ -667,6 +700,13 @@ impl VegetationModel {
             let developed = develop(start, site, temp_factor * year_factor, 1.0 + boost * fixer);
             *soil = if kind == CELL_CLOSED { 0.0 } else { developed };
         }
+        let bound = &mut self.production;
+        for ((b, &soil), &kind) in bound.iter_mut().zip(&self.state.soil).zip(&self.cell_kind) {
+            *b = if kind == CELL_CLOSED { -1.0 } else { soil };
+        }
+        for (max, chunk) in self.chunk_max_soil.iter_mut().zip(bound.chunks(CHUNK)) {
+            *max = chunk_max(chunk);
+        }
     }
 
     /// One year of every type in the cells of `cells`, tallest first, each under the
@@ -698,31 +738,51 @@ impl VegetationModel {
                 GrowthForm::Shrub => [0.0, 1.0, 0.0],
                 GrowthForm::Tree => [0.0, 1.0, 1.0],
             };
-            let layer = t * n + cells.start..t * n + cells.end;
-            grow_cells(
-                &setup.rates,
-                form_weights,
-                draw_key(self.establishment_key, year, t),
-                cells.start as u32,
-                anomaly_c,
-                CellInputs {
-                    kind: &self.cell_kind[cells.clone()],
-                    temp_base_c: &self.temp_base_c[cells.clone()],
-                    soil: &self.state.soil[cells.clone()],
-                    slope_deg: &self.slope_deg[cells.clone()],
-                    rain: &self.rain[layer.clone()],
-                },
-                &mut self.state.cover[layer.clone()],
-                &mut self.state.age_a[layer.clone()],
-                FormSums {
-                    canopy: &mut canopy[..len],
-                    graminoid: &mut graminoid[..len],
-                    woody: &mut woody[..len],
-                    tree: &mut tree[..len],
-                    oldest_tree_age_a: &mut oldest[..len],
-                },
-            );
-            cover_sums[t] += lane_sum(&self.state.cover[layer]);
+            let rates = &setup.rates;
+            let key = draw_key(self.establishment_key, year, t);
+            let n_chunks = n.div_ceil(CHUNK);
+            let mut start = cells.start;
+            while start < cells.end {
+                let end = (start + CHUNK).min(cells.end);
+                let chunk = start / CHUNK;
+                let occupied = &mut self.chunk_occupied[t * n_chunks + chunk];
+                let barren = self.chunk_max_temp_c[chunk] + anomaly_c < rates.min_temp_c
+                    || self.chunk_max_soil[chunk] < rates.min_soil
+                    || self.chunk_min_slope_deg[chunk] > rates.max_slope_deg;
+                if !*occupied && barren {
+                    start = end;
+                    continue;
+                }
+                let local = start - cells.start..end - cells.start;
+                let layer = t * n + start..t * n + end;
+                grow_cells(
+                    rates,
+                    form_weights,
+                    key,
+                    start as u32,
+                    anomaly_c,
+                    CellInputs {
+                        kind: &self.cell_kind[start..end],
+                        temp_base_c: &self.temp_base_c[start..end],
+                        soil: &self.state.soil[start..end],
+                        slope_deg: &self.slope_deg[start..end],
+                        rain: &self.rain[layer.clone()],
+                    },
+                    &mut self.state.cover[layer.clone()],
+                    &mut self.state.age_a[layer.clone()],
+                    FormSums {
+                        canopy: &mut canopy[local.clone()],
+                        graminoid: &mut graminoid[local.clone()],
+                        woody: &mut woody[local.clone()],
+                        tree: &mut tree[local.clone()],
+                        oldest_tree_age_a: &mut oldest[local],
+                    },
+                );
+                let chunk_cover = lane_sum(&self.state.cover[layer]);
+                *occupied = chunk_cover > 0.0;
+                cover_sums[t] += chunk_cover;
+                start = end;
+            }
         }
         let th = self.thresholds;
         let stages = &mut self.state.stage[cells.clone()];
@@ -766,7 +826,7 @@ impl VegetationModel {
                             self.state.cover[t * n + i] * setup.seeds_per_cover * per_year;
                     }
                     self.state.cover[t * n + i] = 0.0;
-                    self.state.age_a[t * n + i] = 0;
+                    self.state.age_a[t * n + i] = 0.0;
                 }
                 if scheduled.event.kind == DisturbanceKind::DebrisFlow {
                     self.state.soil[i] = 0.0;
@@ -787,20 +847,18 @@ impl VegetationModel {
         let mut total = 0.0f64;
         for row in 0..self.n_rows {
             let cells = row * n_cols..(row + 1) * n_cols;
-            let mut row_sum = 0.0f32;
             for ((p, &c), &age) in self.production[cells.clone()]
                 .iter_mut()
                 .zip(&cover[cells.clone()])
-                .zip(&ages[cells])
+                .zip(&ages[cells.clone()])
             {
                 *p = if age >= setup.age_first_seed_a {
                     c * local
                 } else {
                     0.0
                 };
-                row_sum += *p;
             }
-            total += f64::from(row_sum);
+            total += lane_sum(&self.production[cells]);
             self.row_production[row] = total;
         }
         let rain = &mut self.rain[t * n..(t + 1) * n];
@@ -895,7 +953,7 @@ fn poisson<R: Rng + ?Sized>(rng: &mut R, mean: f64) -> usize {
 
 /// Per-cell layers one type's update reads.
 struct CellInputs<'a> {
-    kind: &'a [u8],
+    kind: &'a [f32],
     temp_base_c: &'a [f32],
     soil: &'a [f32],
     slope_deg: &'a [f32],
@@ -922,7 +980,7 @@ fn grow_cells(
     anomaly_c: f32,
     input: CellInputs,
     cover: &mut [f32],
-    ages: &mut [u16],
+    ages: &mut [f32],
     sums: FormSums,
 ) {
     let n = cover.len();
@@ -943,19 +1001,20 @@ fn grow_cells(
         let kind = kind[i];
         let suit = suitability(rates, temp_base_c[i] + anomaly_c, soil[i], slope_deg[i]);
         let suit = if kind == CELL_CLOSED { 0.0 } else { suit };
-        let c0 = if kind == CELL_OPEN { cover[i] } else { 0.0 };
-        let age0 = if kind == CELL_OPEN { ages[i] } else { 0 };
+        // Unconditional loads: a load inside a branch would need masked loads, which
+        // SSE2 and wasm SIMD lack, and the loop would stay scalar.
+        let (last_cover, last_age) = (cover[i], ages[i]);
+        let c0 = if kind == CELL_OPEN { last_cover } else { 0.0 };
+        let age0 = if kind == CELL_OPEN { last_age } else { 0.0 };
         let under = canopy[i];
         let uniform = hash_uniform(key ^ (first_cell + i as u32));
         let c = update_cover(rates, c0, suit, under, rain[i], uniform);
         let gone = c < EXTINCT_COVER;
         let c = if gone { 0.0 } else { c };
         let age = if gone {
-            0
-        } else if age0 < u16::MAX {
-            age0 + 1
+            0.0
         } else {
-            age0
+            smaller(age0 + 1.0, MAX_AGE_A)
         };
         cover[i] = c;
         ages[i] = age;
@@ -964,7 +1023,7 @@ fn grow_cells(
         woody[i] += is_woody * c;
         tree[i] += is_tree * c;
         let tree_age = if (is_tree > 0.0) & (c >= 0.05) {
-            f32::from(age)
+            age
         } else {
             0.0
         };
@@ -987,6 +1046,27 @@ fn lane_sum(values: &[f32]) -> f64 {
         total += f64::from(lanes.iter().sum::<f32>() + rest);
     }
     total
+}
+
+/// Largest value of a chunk, in lanes so that it vectorises (comparisons, no `f32::max`).
+fn chunk_max(values: &[f32]) -> f32 {
+    let mut lanes = [f32::NEG_INFINITY; 16];
+    let mut blocks = values.chunks_exact(16);
+    for block in &mut blocks {
+        for (lane, &v) in lanes.iter_mut().zip(block) {
+            *lane = larger(*lane, v);
+        }
+    }
+    let rest = blocks
+        .remainder()
+        .iter()
+        .fold(f32::NEG_INFINITY, |a, &v| larger(a, v));
+    lanes.iter().fold(rest, |a, &v| larger(a, v))
+}
+
+/// Largest negated value of a chunk: minus its smallest value.
+fn chunk_max_negated(values: &[f32]) -> f32 {
+    values.iter().fold(f32::NEG_INFINITY, |a, &v| larger(a, -v))
 }
 
 /// Key of one year's establishment draws of type `t`.
