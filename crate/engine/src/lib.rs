@@ -38,6 +38,7 @@ pub mod succession;
 pub mod terrain;
 pub mod timeline;
 pub mod vegetation;
+pub mod zones;
 
 pub use grid::{Grid, GridGeometry, MAX_CELLS};
 pub use load_error::{LoadError, LoadProblem};

@@ -17,7 +17,7 @@ use crate::recorded_run::RecordedRow;
 use crate::timeline::{PlantQuantity, Timeline, COVERED};
 
 /// Line end of every record (RFC 4180 section 2.1).
-const CRLF: &str = "\r\n";
+pub(crate) const CRLF: &str = "\r\n";
 
 /// Rows per chunk the streamed cell table suggests (about 1 MB of text).
 pub const DEFAULT_CHUNK_ROWS: usize = 16_384;
@@ -32,7 +32,7 @@ pub fn csv_field(text: &str) -> String {
 }
 
 /// A name as part of a column name: lower case, runs of other characters as one `_`.
-fn column_word(name: &str) -> String {
+pub(crate) fn column_word(name: &str) -> String {
     let mut out = String::new();
     for c in name.chars() {
         if c.is_ascii_alphanumeric() {
@@ -45,7 +45,7 @@ fn column_word(name: &str) -> String {
 }
 
 /// The comment lines every table opens with.
-fn preamble(meta: &ExportMeta, table: &str) -> String {
+pub(crate) fn preamble(meta: &ExportMeta, table: &str) -> String {
     let mut out = String::new();
     let _ = write!(out, "# Forefield {table}{CRLF}");
     let _ = write!(out, "# scenario: {}{CRLF}", one_line(&meta.scenario_name));
@@ -56,7 +56,7 @@ fn preamble(meta: &ExportMeta, table: &str) -> String {
 }
 
 /// Header of a row: the names joined, quoted where needed, with the line end.
-fn header_row(names: &[String]) -> String {
+pub(crate) fn header_row(names: &[String]) -> String {
     let mut out = names
         .iter()
         .map(|n| csv_field(n))
