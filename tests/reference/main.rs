@@ -17,4 +17,5 @@ mod veg_chronosequence;
 mod veg_kernels;
 mod veg_migration;
 mod veg_model;
+mod veg_scenario_disturbance;
 mod veg_spread;

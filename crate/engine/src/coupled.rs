@@ -4,9 +4,10 @@
 
 use thiserror::Error;
 
+use crate::disturbance::{scenario_disturbances, Disturbance};
 use crate::grid::Grid;
 use crate::pft::VegetationError;
-use crate::scenario::Scenario;
+use crate::scenario::{Scenario, ScenarioError};
 use crate::simulation::{IceSimulation, SimulationError, YearSummary};
 use crate::terrain::{derivatives, Sun};
 use crate::vegetation::{VegetationModel, VegetationYearSummary, N_STAGES};
@@ -20,6 +21,8 @@ pub enum CoupledError {
     Vegetation(#[from] VegetationError),
     #[error("initial vegetation grid does not line up with the bed grid")]
     Misaligned,
+    #[error(transparent)]
+    Scenario(#[from] ScenarioError),
 }
 
 /// One row of the coupled yearly summary.
@@ -94,6 +97,40 @@ impl CoupledSimulation {
             vegetation: model,
             start,
         })
+    }
+
+    /// Rasterises the scenario's `disturbances` on the plant grid and schedules them; named
+    /// polygon files come from `read_file` (see [`scenario_disturbances`]). Call once,
+    /// before the first year, with the scenario the run was built from.
+    pub fn add_scenario_disturbances<F>(
+        &mut self,
+        scenario: &Scenario,
+        read_file: F,
+    ) -> Result<(), CoupledError>
+    where
+        F: FnMut(&str) -> Result<Vec<u8>, String>,
+    {
+        let events = scenario_disturbances(scenario, self.ice.geometry(), read_file)?;
+        self.add_disturbances(events)
+    }
+
+    /// Schedules disturbance events; each must strike in a year still to be simulated.
+    pub fn add_disturbances(&mut self, events: Vec<Disturbance>) -> Result<(), CoupledError> {
+        let (first, last) = (self.ice.year() + 1, self.ice.end_year());
+        for event in events {
+            if event.year < first || event.year > last {
+                return Err(VegetationError::Invalid {
+                    field: "disturbances".to_string(),
+                    problem: format!(
+                        "an event in year {} lies outside the years still to run, {first} to {last}",
+                        event.year
+                    ),
+                }
+                .into());
+            }
+            self.vegetation.add_disturbance(event)?;
+        }
+        Ok(())
     }
 
     /// Simulates the next year; `None` once the scenario's years are done.

@@ -5,10 +5,17 @@
 //! 64(2):149-175, on the contrast of primary and secondary sequences; soils kept after stand
 //! disturbance, Bormann et al. 1995, J. Ecol. 83:747-757). A debris flow buries or strips the
 //! soil and leaves primary succession (common practice, no source).
+//!
+//! A scenario lists its events under `disturbances` with a GeoJSON polygon each, inline or
+//! as a file name; [`scenario_disturbances`] turns them into cell sets once, at load, with the
+//! outline reader's CRS checks.
 
 use serde::{Deserialize, Serialize};
 
+use crate::grid::GridGeometry;
+use crate::outline::outline_mask;
 use crate::pft::{check_range, VegetationError};
+use crate::scenario::{Scenario, ScenarioError};
 
 /// What a disturbance does.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
@@ -18,6 +25,97 @@ pub enum DisturbanceKind {
     Burn,
     /// Removes cover and soil.
     DebrisFlow,
+}
+
+/// Where a scenario's event strikes: a GeoJSON file name, resolved like the grid files
+/// (relative to the scenario file on the command line), or a GeoJSON object written inline
+/// (a Geometry, Feature or FeatureCollection with Polygon or MultiPolygon geometry, in the
+/// grid's projected CRS).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(untagged)]
+pub enum DisturbanceArea {
+    File(String),
+    Inline(serde_json::Value),
+}
+
+/// One event of a scenario's `disturbances` list.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DisturbanceEvent {
+    /// Simulated year at whose start the event strikes: start_year + 1 to start_year +
+    /// n_years.
+    pub year: i32,
+    /// `burn` or `debris_flow`.
+    pub kind: DisturbanceKind,
+    /// The area struck.
+    pub polygon: DisturbanceArea,
+}
+
+impl DisturbanceEvent {
+    /// Checks the year against the run and the polygon's form (its content is checked when
+    /// it is rasterised). `field` is this event's place in the scenario, for messages.
+    pub fn validate(
+        &self,
+        field: &str,
+        start_year: i32,
+        end_year: i32,
+    ) -> Result<(), ScenarioError> {
+        crate::scenario::check_range(
+            &format!("{field}.year"),
+            f64::from(self.year),
+            f64::from(start_year) + 1.0,
+            f64::from(end_year),
+            "year",
+        )?;
+        let problem = match &self.polygon {
+            DisturbanceArea::File(name) if name.trim().is_empty() => Some("file name is empty"),
+            DisturbanceArea::Inline(value) if !value.is_object() => {
+                Some("give a GeoJSON object or the name of a GeoJSON file")
+            }
+            _ => None,
+        };
+        match problem {
+            Some(problem) => Err(ScenarioError::Invalid {
+                field: format!("{field}.polygon"),
+                problem: problem.to_string(),
+            }),
+            None => Ok(()),
+        }
+    }
+}
+
+/// The scenario's disturbance events as cell sets on `grid` (the plant grid), in the
+/// scenario's order. `read_file` returns the bytes of a named GeoJSON file, or a message
+/// saying why it cannot (the command line reads it next to the scenario; the page looks
+/// among the files the planner gave). Errors name the event's field.
+pub fn scenario_disturbances<F>(
+    scenario: &Scenario,
+    grid: &GridGeometry,
+    mut read_file: F,
+) -> Result<Vec<Disturbance>, ScenarioError>
+where
+    F: FnMut(&str) -> Result<Vec<u8>, String>,
+{
+    let mut events = Vec::with_capacity(scenario.disturbances.len());
+    for (i, event) in scenario.disturbances.iter().enumerate() {
+        let field = format!("disturbances[{i}].polygon");
+        let invalid = |problem: String| ScenarioError::Invalid {
+            field: field.clone(),
+            problem,
+        };
+        let (text, file) = match &event.polygon {
+            DisturbanceArea::File(name) => {
+                let bytes = read_file(name).map_err(|e| invalid(format!("{name}: {e}")))?;
+                let text = String::from_utf8(bytes)
+                    .map_err(|_| invalid(format!("{name}: not UTF-8 text")))?;
+                (text, name.clone())
+            }
+            DisturbanceArea::Inline(value) => (value.to_string(), "inline polygon".to_string()),
+        };
+        let mask = outline_mask(&text, &file, grid).map_err(|e| invalid(e.to_string()))?;
+        events.push(Disturbance::from_mask(event.year, event.kind, &mask));
+    }
+    Ok(events)
 }
 
 /// One event: at the start of `year`, `kind` strikes the cells in `cells`.

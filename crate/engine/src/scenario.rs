@@ -10,6 +10,7 @@ use serde::{Deserialize, Serialize};
 use thiserror::Error;
 
 use crate::climate::ClimateParams;
+use crate::disturbance::DisturbanceEvent;
 use crate::ice_flow::FlowParams;
 use crate::ice_outline::PlasticityParams;
 use crate::mass_balance::MassBalanceParams;
@@ -174,6 +175,11 @@ pub struct Scenario {
     /// of the colonisation model.
     #[serde(default)]
     pub vegetation: VegetationParams,
+    /// Burns and debris flows placed by the planner, each with a year and a GeoJSON polygon
+    /// (inline or a file name); rasterised at load by
+    /// [`crate::disturbance::scenario_disturbances`].
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub disturbances: Vec<DisturbanceEvent>,
 }
 
 impl Default for Scenario {
@@ -191,6 +197,7 @@ impl Default for Scenario {
             outline: PlasticityParams::default(),
             seed: 0,
             vegetation: VegetationParams::default(),
+            disturbances: Vec::new(),
         }
     }
 }
@@ -270,6 +277,13 @@ impl Scenario {
         self.flow.validate()?;
         self.outline.validate()?;
         self.vegetation.validate().map_err(vegetation_error)?;
+        for (i, event) in self.disturbances.iter().enumerate() {
+            event.validate(
+                &format!("disturbances[{i}]"),
+                self.start_year,
+                self.end_year(),
+            )?;
+        }
         Ok(())
     }
 
@@ -371,6 +385,46 @@ mod tests {
         )
         .unwrap_err();
         assert!(err.to_string().contains("glacier_mask"), "{err}");
+    }
+
+    #[test]
+    fn disturbances_take_a_file_or_an_inline_polygon_and_a_year_inside_the_run() {
+        use crate::disturbance::{DisturbanceArea, DisturbanceKind};
+        let text = r#"{"version": 1, "start_year": 2025, "n_years": 50, "disturbances": [
+            {"year": 2040, "kind": "burn", "polygon": "burn.geojson"},
+            {"year": 2075, "kind": "debris_flow", "polygon":
+                {"type": "Polygon", "coordinates": [[[0, 0], [10, 0], [10, 10], [0, 0]]]}}]}"#;
+        let scenario = Scenario::from_json(text).expect("valid");
+        assert_eq!(scenario.disturbances[0].kind, DisturbanceKind::Burn);
+        assert_eq!(
+            scenario.disturbances[0].polygon,
+            DisturbanceArea::File("burn.geojson".to_string())
+        );
+        assert!(matches!(
+            scenario.disturbances[1].polygon,
+            DisturbanceArea::Inline(_)
+        ));
+        assert_eq!(Scenario::from_json(&scenario.to_json()), Ok(scenario));
+        for (year, ok) in [(2025, false), (2026, true), (2075, true), (2076, false)] {
+            let text = format!(
+                r#"{{"version": 1, "n_years": 50, "disturbances": [{{"year": {year}, "kind": "burn", "polygon": "b.geojson"}}]}}"#
+            );
+            let result = Scenario::from_json(&text);
+            assert_eq!(result.is_ok(), ok, "{year}: {result:?}");
+            if let Err(e) = result {
+                assert!(e.to_string().contains("disturbances[0].year"), "{e}");
+            }
+        }
+        let err = Scenario::from_json(
+            r#"{"version": 1, "disturbances": [{"year": 2030, "kind": "flood", "polygon": "b.geojson"}]}"#,
+        )
+        .unwrap_err();
+        assert!(err.to_string().contains("flood"), "{err}");
+        let err = Scenario::from_json(
+            r#"{"version": 1, "disturbances": [{"year": 2030, "kind": "burn", "polygon": 3}]}"#,
+        )
+        .unwrap_err();
+        assert!(err.to_string().contains("disturbances[0].polygon"), "{err}");
     }
 
     #[test]
