@@ -60,6 +60,28 @@ function checkGeoJson(json) {
   }
 }
 
+/** iTXt and tEXt chunks of a PNG, walked by the chunk layout of the PNG specification
+ *  (W3C PNG 3rd edition, 5.3 and 11.3.3): keyword -> text. */
+function pngText(bytes) {
+  const text = {};
+  for (let at = 8; at + 8 <= bytes.length;) {
+    const length = bytes.readUInt32BE(at);
+    const type = bytes.toString('latin1', at + 4, at + 8);
+    const data = bytes.subarray(at + 8, at + 8 + length);
+    const nul = data.indexOf(0);
+    if (type === 'tEXt') text[data.toString('latin1', 0, nul)] = data.toString('latin1', nul + 1);
+    if (type === 'iTXt' && data[nul + 1] === 0) {
+      // Uncompressed: keyword, flag, method, language tag, translated keyword, then UTF-8.
+      let p = nul + 3;
+      p = data.indexOf(0, p) + 1;
+      p = data.indexOf(0, p) + 1;
+      text[data.toString('latin1', 0, nul)] = data.toString('utf8', p);
+    }
+    at += 12 + length;
+  }
+  return text;
+}
+
 let scenarioJson;
 let cliOut;
 let shown;
@@ -108,6 +130,10 @@ describe('exports of the layer and year on the map', () => {
     for (let i = 0; i < png.data.length; i += 4) colours.add(`${png.data[i]},${png.data[i + 1]},${png.data[i + 2]}`);
     const present = legend.classes.filter((c) => colours.has(c.rgb.join(',')));
     assert.ok(present.length >= 3, `legend swatches in the PNG: ${present.map((c) => c.label)}`);
+    const text = pngText(bytes);
+    assert.match(text.Disclaimer ?? '', CAUTION);
+    assert.match(text.Title ?? '', new RegExp(`Succession stage.*${shown.year}`));
+    assert.match(text.Source ?? '', /seed \d+, Forefield engine/);
     assert.ok(bytes.equals(readFileSync(join(cliOut, name))), 'the page and the command line should write the same PNG');
   });
 
@@ -123,6 +149,7 @@ describe('exports of the layer and year on the map', () => {
     assert.ok(Math.abs(west - info.west_m) < 1e-6 && Math.abs(north - info.north_m) < 1e-6);
     assert.deepEqual(image.getResolution().slice(0, 2), [info.cell_size_m, -info.cell_size_m]);
     assert.equal(image.getGeoKeys().ProjectedCSTypeGeoKey, info.epsg);
+    assert.match(String(await image.fileDirectory.loadValue('ImageDescription')), CAUTION);
     const [codes] = await image.readRasters();
     // Cells the page's history reads for this year have the same stage in the file.
     for (const [col, row] of [[10, 10], [Math.floor(info.n_cols / 2), Math.floor(info.n_rows / 2)], [info.n_cols - 5, info.n_rows - 5]]) {

@@ -20,6 +20,7 @@ struct Tiff {
     scale: Vec<f64>,
     tiepoint: Vec<f64>,
     geokeys: Vec<u16>,
+    description: Option<String>,
     data: DecodingResult,
 }
 
@@ -34,12 +35,14 @@ fn decode(bytes: &[u8]) -> Tiff {
         .into_iter()
         .map(|v| v as u16)
         .collect();
+    let description = decoder.get_tag_ascii_string(Tag::ImageDescription).ok();
     let data = decoder.read_image().unwrap();
     Tiff {
         size,
         scale,
         tiepoint,
         geokeys,
+        description,
         data,
     }
 }
@@ -65,7 +68,17 @@ fn layers_are_georeferenced_like_the_dem_and_hold_the_timeline_values() {
         LayerKind::Cover(0),
         LayerKind::Soil,
     ] {
-        let out = decode(&layer_geotiff(timeline, dem, kind, year).unwrap());
+        let out = decode(&layer_geotiff(timeline, dem, &run.meta, kind, year).unwrap());
+        // TIFF 6.0 ImageDescription (270) carries what the file is and the caution.
+        let description = out.description.clone().unwrap_or_default();
+        assert!(
+            description.contains(&format!("end of {year}")),
+            "{description}"
+        );
+        assert!(
+            description.contains("planning-level scenarios"),
+            "{description}"
+        );
         assert_eq!(out.size, input.size, "{kind:?}");
         assert_eq!(out.scale[..2], input.scale[..2], "{kind:?}");
         assert_eq!(out.tiepoint[3..5], input.tiepoint[3..5], "{kind:?}");

@@ -178,7 +178,7 @@ pub fn write_exports(
             }
             if wants("tif") {
                 write_timed(&out_dir.join(format!("layer_{stem}_{year}.tif")), || {
-                    Ok(layer_geotiff(timeline, dem, kind, year)?)
+                    Ok(layer_geotiff(timeline, dem, meta, kind, year)?)
                 })?;
             }
         }

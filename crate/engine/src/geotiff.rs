@@ -336,6 +336,16 @@ pub struct WriteError(String);
 /// Writes a grid as a single-band GeoTIFF. Integer types round values and store nodata as
 /// the grid's nodata value (or the type's minimum when it has none).
 pub fn write_geotiff_with(grid: &Grid, options: WriteOptions) -> Result<Vec<u8>, WriteError> {
+    write_geotiff_described(grid, options, None)
+}
+
+/// As [`write_geotiff_with`], with `description` in the TIFF ImageDescription tag (270;
+/// TIFF 6.0), which GIS tools show with the file's metadata.
+pub fn write_geotiff_described(
+    grid: &Grid,
+    options: WriteOptions,
+    description: Option<&str>,
+) -> Result<Vec<u8>, WriteError> {
     let g = &grid.geometry;
     let mut buffer = Cursor::new(Vec::new());
     let compression = match options.compression {
@@ -381,6 +391,7 @@ pub fn write_geotiff_with(grid: &Grid, options: WriteOptions) -> Result<Vec<u8>,
                 .new_image::<$color>(w, h)
                 .map_err(|e| WriteError(e.to_string()))?;
             write_geo_tags(image.encoder(), g, any_nodata.then_some(nodata_value))?;
+            write_description(image.encoder(), description)?;
             image
                 .write_data(&data)
                 .map_err(|e| WriteError(e.to_string()))?;
@@ -397,6 +408,7 @@ pub fn write_geotiff_with(grid: &Grid, options: WriteOptions) -> Result<Vec<u8>,
                 .new_image::<colortype::Gray32Float>(w, h)
                 .map_err(|e| WriteError(e.to_string()))?;
             write_geo_tags(image.encoder(), g, any_nodata.then_some(nodata_value))?;
+            write_description(image.encoder(), description)?;
             image
                 .write_data(&data)
                 .map_err(|e| WriteError(e.to_string()))?;
@@ -407,12 +419,30 @@ pub fn write_geotiff_with(grid: &Grid, options: WriteOptions) -> Result<Vec<u8>,
                 .new_image::<colortype::Gray64Float>(w, h)
                 .map_err(|e| WriteError(e.to_string()))?;
             write_geo_tags(image.encoder(), g, any_nodata.then_some(nodata_value))?;
+            write_description(image.encoder(), description)?;
             image
                 .write_data(&data)
                 .map_err(|e| WriteError(e.to_string()))?;
         }
     }
     Ok(buffer.into_inner())
+}
+
+fn write_description<W: std::io::Write + std::io::Seek, K: tiff::encoder::TiffKind>(
+    dir: &mut tiff::encoder::DirectoryEncoder<'_, W, K>,
+    description: Option<&str>,
+) -> Result<(), WriteError> {
+    match description {
+        // TIFF ASCII is 7-bit; anything else would make strict readers refuse the tag.
+        Some(text) => dir
+            .write_tag(
+                tiff::tags::Tag::ImageDescription,
+                text.replace(|c: char| !c.is_ascii() || c.is_ascii_control(), " ")
+                    .as_str(),
+            )
+            .map_err(|e| WriteError(e.to_string())),
+        None => Ok(()),
+    }
 }
 
 fn write_geo_tags<W: std::io::Write + std::io::Seek, K: tiff::encoder::TiffKind>(

@@ -123,17 +123,35 @@ pub struct PngError(String);
 
 /// Encodes an RGBA buffer as PNG bytes.
 pub fn encode_png(rgba: &[u8], width: usize, height: usize) -> Result<Vec<u8>, PngError> {
-    let mut out = std::io::Cursor::new(Vec::new());
-    image::write_buffer_with_format(
-        &mut out,
-        rgba,
-        width as u32,
-        height as u32,
-        image::ExtendedColorType::Rgba8,
-        image::ImageFormat::Png,
-    )
-    .map_err(|e| PngError(e.to_string()))?;
-    Ok(out.into_inner())
+    encode_png_with_text(rgba, width, height, &[])
+}
+
+/// Encodes an RGBA buffer as PNG bytes with `(keyword, text)` pairs as iTXt chunks (UTF-8;
+/// PNG 3rd edition, 11.3.3.5). Keywords should be the registered ones (e.g. `Title`,
+/// `Description`, `Source`, `Disclaimer`, `Software`), which image viewers show.
+pub fn encode_png_with_text(
+    rgba: &[u8],
+    width: usize,
+    height: usize,
+    text: &[(&str, &str)],
+) -> Result<Vec<u8>, PngError> {
+    let mut out = Vec::new();
+    let mut encoder = png::Encoder::new(&mut out, width as u32, height as u32);
+    encoder.set_color(png::ColorType::Rgba);
+    encoder.set_depth(png::BitDepth::Eight);
+    for (keyword, value) in text {
+        encoder
+            .add_itxt_chunk(keyword.to_string(), value.to_string())
+            .map_err(|e| PngError(e.to_string()))?;
+    }
+    let mut writer = encoder
+        .write_header()
+        .map_err(|e| PngError(e.to_string()))?;
+    writer
+        .write_image_data(rgba)
+        .map_err(|e| PngError(e.to_string()))?;
+    writer.finish().map_err(|e| PngError(e.to_string()))?;
+    Ok(out)
 }
 
 /// CIE L* of an sRGB colour (IEC 61966-2-1 transfer, D65 white; CIE 15:2004), for checking

@@ -1,6 +1,7 @@
 //! Any layer of any recorded year as a single-band GeoTIFF (TIFF 6.0 with OGC GeoTIFF 1.1
 //! tags, OGC 19-008r4), georeferenced exactly as the terrain DEM, through the engine's
-//! writer [`crate::geotiff::write_geotiff_with`].
+//! writer [`crate::geotiff::write_geotiff_described`], which puts the layer, year, scenario
+//! and caution in the ImageDescription tag.
 //!
 //! Values and types: ice thickness (m, f32, 0 where ice-free); exposure year (f32: the
 //! year, [`EXPOSED_BEFORE_START_VALUE`] for ground ice-free from the start, nodata under ice);
@@ -8,8 +9,8 @@
 //! index (0-1, f32). Cells without a DEM value are nodata; the float nodata value is
 //! [`NODATA_VALUE`]. All values are those the map draws.
 
-use super::{check_layer, check_run, ExportError};
-use crate::geotiff::{write_geotiff_with, SampleType, TiffCompression, WriteOptions};
+use super::{check_layer, check_run, layer_file_stem, ExportError, ExportMeta, CAUTION};
+use crate::geotiff::{write_geotiff_described, SampleType, TiffCompression, WriteOptions};
 use crate::grid::Grid;
 use crate::layers::LayerKind;
 use crate::timeline::{PlantQuantity, Timeline, COVERED, NEVER_COVERED};
@@ -76,10 +77,12 @@ pub fn layer_grid(
     Ok(grid)
 }
 
-/// `kind` at the end of `year` as GeoTIFF bytes (Deflate; u8 for stages, else f32).
+/// `kind` at the end of `year` as GeoTIFF bytes (Deflate; u8 for stages, else f32), with
+/// the layer, year, provenance and caution in its ImageDescription.
 pub fn layer_geotiff(
     timeline: &Timeline,
     dem: &Grid,
+    meta: &ExportMeta,
     kind: LayerKind,
     year: i32,
 ) -> Result<Vec<u8>, ExportError> {
@@ -93,7 +96,12 @@ pub fn layer_geotiff(
         compression: TiffCompression::Deflate,
         horizontal_predictor: false,
     };
-    write_geotiff_with(&grid, options).map_err(|e| ExportError::Encode {
+    let description = format!(
+        "{} at the end of {year}; {}. {CAUTION}",
+        layer_file_stem(kind),
+        meta.provenance()
+    );
+    write_geotiff_described(&grid, options, Some(&description)).map_err(|e| ExportError::Encode {
         format: "GeoTIFF",
         message: e.to_string(),
     })

@@ -10,7 +10,7 @@ use font8x8::{UnicodeFonts, BASIC_FONTS, LATIN_FONTS};
 use super::{check_layer, check_run, ExportError, ExportMeta, CAUTION};
 use crate::grid::Grid;
 use crate::layers::{self, LayerKind, LayerLegend, LayerRenderer};
-use crate::render::encode_png;
+use crate::render::encode_png_with_text;
 use crate::timeline::Timeline;
 
 /// Font scale: 8 x 8 glyphs drawn as 16 x 16 pixels.
@@ -395,9 +395,18 @@ pub fn snapshot_png(
         canvas.text(MARGIN, fy, line, ink);
         fy += LINE_H;
     }
-    let png = encode_png(&canvas.rgba, width, height).map_err(|e| ExportError::Encode {
-        format: "PNG",
-        message: e.to_string(),
+    let title = format!("{}, end of year {year}", legend.title);
+    let source = meta.provenance();
+    let text = [
+        ("Title", title.as_str()),
+        ("Source", source.as_str()),
+        ("Disclaimer", CAUTION),
+    ];
+    let png = encode_png_with_text(&canvas.rgba, width, height, &text).map_err(|e| {
+        ExportError::Encode {
+            format: "PNG",
+            message: e.to_string(),
+        }
     })?;
     Ok(Snapshot {
         png,
