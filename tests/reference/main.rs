@@ -19,3 +19,4 @@ mod veg_migration;
 mod veg_model;
 mod veg_scenario_disturbance;
 mod veg_spread;
+mod zone_timeline;
