@@ -92,7 +92,10 @@ pub fn run(args: &[String]) -> Result<()> {
     let mut run = if ice_only {
         RecordedRun::ice_only(&bed, &thickness, &scenario)
     } else {
-        RecordedRun::with_plants(&bed, &thickness, &scenario, stages.as_ref())
+        // Disturbance polygons named in the scenario lie beside it, like its grids.
+        RecordedRun::with_plants(&bed, &thickness, &scenario, stages.as_ref(), |name| {
+            std::fs::read(base.join(name)).map_err(|e| e.to_string())
+        })
     }
     .with_context(|| format!("scenario {}", scenario_path.display()))?;
     std::fs::create_dir_all(&out_dir).with_context(|| format!("creating {}", out_dir.display()))?;

@@ -108,14 +108,22 @@ impl RecordedRun {
 
     /// A coupled run of ice and plants (the scenario's `vegetation` block), starting from
     /// `initial_stages` (succession stage codes 0-6) when given, else from each cell's
-    /// potential vegetation. The timeline keeps stages, covers and soil too.
-    pub fn with_plants(
+    /// potential vegetation, with the scenario's `disturbances` scheduled; polygon files they
+    /// name come from `read_file` (see [`crate::disturbance::scenario_disturbances`]). The
+    /// timeline keeps stages, covers and soil too.
+    pub fn with_plants<F>(
         bed_m: &Grid,
         ice_thickness_m: &Grid,
         scenario: &Scenario,
         initial_stages: Option<&Grid>,
-    ) -> Result<RecordedRun, RecordedRunError> {
-        let coupled = CoupledSimulation::new(bed_m, ice_thickness_m, scenario, initial_stages)?;
+        read_file: F,
+    ) -> Result<RecordedRun, RecordedRunError>
+    where
+        F: FnMut(&str) -> Result<Vec<u8>, String>,
+    {
+        let mut coupled =
+            CoupledSimulation::new(bed_m, ice_thickness_m, scenario, initial_stages)?;
+        coupled.add_scenario_disturbances(scenario, read_file)?;
         let names = scenario
             .vegetation
             .types

@@ -784,6 +784,12 @@ impl RunRecorder {
             &grids.ice_thickness_m,
             &scenario,
             grids.vegetation.as_ref(),
+            |name| {
+                Err(format!(
+                    "{name}: the page reads no files a scenario names; write the polygon into \
+                     the scenario as a GeoJSON object instead"
+                ))
+            },
         )
         .map_err(|e| JsError::new(&e.to_string()))?;
         Ok(RunRecorder {
