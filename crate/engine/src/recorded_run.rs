@@ -121,8 +121,7 @@ impl RecordedRun {
     where
         F: FnMut(&str) -> Result<Vec<u8>, String>,
     {
-        let mut coupled =
-            CoupledSimulation::new(bed_m, ice_thickness_m, scenario, initial_stages)?;
+        let mut coupled = CoupledSimulation::new(bed_m, ice_thickness_m, scenario, initial_stages)?;
         coupled.add_scenario_disturbances(scenario, read_file)?;
         let names = scenario
             .vegetation
