@@ -25,6 +25,8 @@ pub struct ExportRequest {
     /// `None`: every format.
     pub formats: Option<String>,
     pub cells: Vec<(usize, usize)>,
+    /// GeoJSON zone files whose timeline to write.
+    pub zones: Vec<String>,
 }
 
 pub const FORMATS: [&str; 4] = ["png", "tif", "csv", "geojson"];
@@ -34,7 +36,9 @@ pub const EXPORT_OPTIONS: &str = "\
     --layers L,L,...    ice_thickness, exposure_year, stage, cover:N, soil, or `all`
                         (default ice_thickness, and stage for runs with plants)
     --formats F,F,...   png, tif, csv, geojson (default all four)
-    --cell COL,ROW      also write this cell's history as CSV (repeat for several cells)";
+    --cell COL,ROW      also write this cell's history as CSV (repeat for several cells)
+    --zone FILE.geojson also write the timeline of the zone's polygons (in the terrain's CRS)
+                        as zone_<file stem>_timeline.csv (repeat for several zones)";
 
 impl ExportRequest {
     /// Takes an export option and its value, if `word` is one.
@@ -53,6 +57,7 @@ impl ExportRequest {
             "--years" => self.years = Some(value()?),
             "--layers" => self.layers = Some(value()?),
             "--formats" => self.formats = Some(value()?),
+            "--zone" => self.zones.push(value()?),
             "--cell" => {
                 let v = value()?;
                 let parsed = v
@@ -203,6 +208,7 @@ pub fn write_exports(
             || Ok(cell_history_csv(timeline, dem, meta, &[(col, row)])?.into_bytes()),
         )?;
     }
+    crate::zones::write_zone_timelines(out_dir, timeline, dem, meta, &request.zones)?;
     Ok(())
 }
 

@@ -5,6 +5,7 @@ mod export;
 mod exports;
 mod run;
 mod serve;
+mod zones;
 
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
