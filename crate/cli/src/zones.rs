@@ -68,8 +68,8 @@ mod tests {
         let zone_path = dir.join("west cell.geojson");
         let text = r#"{"type":"Polygon","coordinates":[[[500000,4000000],[500010,4000000],[500010,4000010],[500000,4000010],[500000,4000000]]]}"#;
         std::fs::write(&zone_path, text).unwrap();
-        let zone_file = zone_path.display().to_string();
-        write_zone_timelines(&dir, &timeline, &dem, &meta, &[zone_file.clone()]).unwrap();
+        let zone_files = [zone_path.display().to_string()];
+        write_zone_timelines(&dir, &timeline, &dem, &meta, &zone_files).unwrap();
         let written = std::fs::read_to_string(dir.join("zone_west_cell_timeline.csv")).unwrap();
         let zone = Zone::from_geojson(text, "west cell.geojson", &dem).unwrap();
         assert_eq!(

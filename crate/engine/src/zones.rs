@@ -86,7 +86,7 @@ impl Zone {
         }
         Zone {
             name: name.to_string(),
-            geometry: geometry.clone(),
+            geometry: *geometry,
             n_cells: spans.iter().map(|(a, b)| b - a).sum(),
             spans,
         }
