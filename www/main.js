@@ -10,6 +10,7 @@ import { ScenarioForm } from './scenario_form.js';
 import { TimeBar } from './timebar.js';
 import { LineChart, MultiChart } from './charts.js';
 import { ExportPanel } from './exports.js';
+import { ZonePanel } from './zones.js';
 
 const SAMPLE_URL = './sample-grids/valley_dem.tif';
 const SAMPLE_ICE_URL = './sample-grids/valley_ice_thickness.tif';
@@ -145,6 +146,7 @@ async function boot() {
   let summaryCsv = null;
   let timelineInfo = null;
   let exportPanel = null;
+  let zonePanel = null;
   let layer = 'terrain';
   let selected = null;
   let selectedHistory = null;
@@ -207,6 +209,7 @@ async function boot() {
     coverChart.setMarker(year);
     showHistoryYear(year);
     exportPanel?.refresh();
+    zonePanel?.setYear();
     if (hovered) {
       showReadout(workspace.readout(hovered.col, hovered.row), hoveredHistory, year);
     }
@@ -277,6 +280,7 @@ async function boot() {
     volumeChart.setData([], []);
     stageChart.setData([], []);
     exportPanel?.refresh();
+    zonePanel?.refresh();
   }
 
   /** Says which ice and vegetation the next run starts from, with the engine's notes. */
@@ -320,6 +324,7 @@ async function boot() {
   }
 
   async function loadFiles(files) {
+    if (zonePanel.claimsDrop(files)) return;
     const outlines = files.filter((file) => /\.geojson$/i.test(file.name));
     if (outlines.length > 0) {
       if (outlines.length > 1 || files.length > 1) {
@@ -445,6 +450,7 @@ async function boot() {
       drawMap({ legend: true });
       if (selected) selectCell(selected);
       exportPanel.refresh();
+      zonePanel.refresh();
     } else if (message.type === 'cancelled') {
       setRunning(false);
       setRunState('cancelled', `Cancelled at ${message.year}. ${timelineInfo ? 'The previous result stays.' : ''}`);
@@ -584,6 +590,15 @@ async function boot() {
     summaryCsv: () => summaryCsv,
   });
 
+  zonePanel = new ZonePanel({
+    workspace, map, year: currentYear, showError, clearError, dropTarget: element('map-frame'),
+    elements: {
+      open: element('zone-open'), input: element('zone-input'), csv: element('zone-csv'),
+      summary: element('zone-summary'), hint: element('zone-hint'), keys: element('zone-keys'),
+      tableBox: element('zone-table-box'), head: element('zone-table-head'), body: element('zone-table-body'),
+    },
+  });
+
   // Hooks for the browser tests and for checking a value by hand in the console.
   window.forefield = {
     readoutAt: (col, row) => workspace.readout(col, row),
@@ -594,6 +609,7 @@ async function boot() {
     state: () => ({ run: document.body.dataset.run ?? 'none', layer, year: currentYear(), timeline: timelineInfo,
       summaryYears: summary?.length ?? 0 }),
     cellHistory: (col, row) => workspace.cellHistory(col, row),
+    zoneTimeline: () => (workspace.hasZone() && workspace.hasTimeline() ? workspace.zoneTimeline() : null),
     chartMarkerX: () => areaChart.markerX(),
     stageChartMarkerX: () => stageChart.markerX(),
     summary: () => summary,

@@ -59,6 +59,13 @@ export class MapView {
     this.draw();
   }
 
+  /** Something drawn over the map after the image (e.g. a zone outline): `draw(ctx, view)`
+   *  in CSS pixels, with the view's `offsetX`, `offsetY` and `scale` (px per cell). */
+  setOverlay(draw) {
+    this.overlay = draw;
+    this.draw();
+  }
+
   hasImage() {
     return this.imageWidth > 0;
   }
@@ -167,6 +174,7 @@ export class MapView {
       Math.round(this.offsetX) - 0.5, Math.round(this.offsetY) - 0.5,
       Math.round(this.imageWidth * this.scale) + 1, Math.round(this.imageHeight * this.scale) + 1,
     );
+    if (this.overlay) this.overlay(ctx, this);
     if (this.selected) this.drawSelection(ctx);
     this.drawScaleBar(ctx);
     if (this.keyboardCross) {

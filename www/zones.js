@@ -1,0 +1,208 @@
+// The zone panel: a planner's zone (GeoJSON polygons in the terrain's CRS) opened from a file
+// or Shift-dropped on the map, its key years and a table of every tenth year (plus the year
+// on the map) from the engine's zone timeline, the outline on the map, and the CSV download.
+
+import { download } from './exports.js';
+
+const ROW_STEP_YEARS = 10;
+const HA_PER_KM2 = 100;
+const isGeoJsonName = (name) => /\.(geo)?json$/i.test(name);
+
+export class ZonePanel {
+  /**
+   * @param {{workspace: object, map: object, elements: Record<string, HTMLElement>,
+   *   year: () => number | null, showError: (message: string) => void,
+   *   clearError: () => void, dropTarget: HTMLElement}} options
+   */
+  constructor({ workspace, map, elements, year, showError, clearError, dropTarget }) {
+    this.workspace = workspace;
+    this.map = map;
+    this.el = elements;
+    this.year = year;
+    this.showError = showError;
+    this.clearError = clearError;
+    this.zone = null;
+    this.timeline = null;
+    this.shiftDrop = false;
+    this.el.open.addEventListener('click', () => this.el.input.click());
+    this.el.input.addEventListener('change', () => {
+      const [file] = this.el.input.files;
+      this.el.input.value = '';
+      if (file) this.open(file);
+    });
+    this.el.csv.addEventListener('click', () => this.downloadCsv());
+    // Seen before the map's own drop handler hands the files on (see claimsDrop).
+    dropTarget.addEventListener('drop', (event) => { this.shiftDrop = event.shiftKey; }, true);
+    map.setOverlay((ctx, view) => this.drawOutline(ctx, view));
+    this.render();
+  }
+
+  /** True when the files just dropped were one GeoJSON with Shift held: a zone, not ice. */
+  claimsDrop(files) {
+    const shift = this.shiftDrop;
+    this.shiftDrop = false;
+    if (!shift || files.length !== 1 || !isGeoJsonName(files[0].name)) return false;
+    this.open(files[0]);
+    return true;
+  }
+
+  async open(file) {
+    let text;
+    try {
+      text = await file.text();
+    } catch (error) {
+      this.showError(`${file.name}: could not be read (${error.message}).`);
+      return;
+    }
+    if (!this.workspace.hasTerrain()) {
+      this.showError(`${file.name}: open the terrain first; a zone is laid on its cells.`);
+      return;
+    }
+    try {
+      // On error the engine keeps the zone it had.
+      this.zone = this.workspace.loadZone(text, file.name);
+    } catch (error) {
+      this.showError(error.message ?? String(error));
+      return;
+    }
+    this.clearError();
+    this.refresh();
+    document.body.dataset.zones = String(Number(document.body.dataset.zones ?? 0) + 1);
+  }
+
+  /** Recomputes the timeline: after a run, a new zone or a new terrain. */
+  refresh() {
+    if (!this.workspace.hasZone()) this.zone = null;
+    this.timeline = this.zone && this.workspace.hasTimeline() ? this.workspace.zoneTimeline() : null;
+    this.render();
+    this.map.draw();
+  }
+
+  /** The year on the map changed: only the highlighted row moves. */
+  setYear() {
+    if (this.timeline) this.renderTable();
+  }
+
+  render() {
+    const zone = this.zone;
+    this.el.csv.disabled = !this.timeline;
+    this.el.summary.textContent = zone
+      ? `${zone.name}: ${zone.n_cells.toLocaleString('en-GB')} cells, ${(zone.area_km2 * HA_PER_KM2).toFixed(1)} ha`
+      : '';
+    this.el.hint.textContent = !zone
+      ? 'A GeoJSON polygon in the terrain’s CRS, or Shift-drop one on the map. After a run its timeline shows here.'
+      : this.timeline ? 'Cells whose centre lies inside the outline. Share of the zone by stage, %.'
+        : 'Run the scenario to see the zone’s timeline.';
+    this.el.keys.hidden = !this.timeline;
+    this.el.tableBox.hidden = !this.timeline;
+    if (!this.timeline) return;
+    const t = this.timeline;
+    this.el.keys.replaceChildren(...t.key_years.flatMap((key) => {
+      const dt = document.createElement('dt');
+      dt.textContent = key.stage_code === 1 ? 'Half ice-free' : `Half ${key.label}+`;
+      const dd = document.createElement('dd');
+      dd.textContent = key.year == null ? `not by ${t.years[t.years.length - 1]}` : String(key.year);
+      return [dt, dd];
+    }));
+    this.renderTable();
+  }
+
+  renderTable() {
+    const t = this.timeline;
+    const first = t.years[0];
+    const last = t.years[t.years.length - 1];
+    const shown = this.year();
+    const years = new Set();
+    for (let y = first; y <= last; y += ROW_STEP_YEARS) years.add(y);
+    years.add(last);
+    if (shown != null && shown >= first && shown <= last) years.add(shown);
+    const plants = t.stage_area_km2.length > 0;
+    // Areas back to whole cells, so the shown figures are plain cell counts.
+    const cellHa = t.cell_size_m ** 2 / 1e4;
+    const count = (areaKm2) => Math.round((areaKm2 * HA_PER_KM2) / cellHa);
+    const share = (n) => ((100 * n) / t.n_cells).toFixed(0);
+    const columns = [['Year', ''], ['Ice', 'ha']];
+    if (plants) {
+      columns.push(['Bare', '%'], ['Pion.', '%'], ['Mead.', '%'], ['Shrub', '%'], ['Forest', '%']);
+    } else {
+      columns.push(['Ice', 'km³'], ['Freed', 'ha']);
+    }
+    const titles = {
+      'Pion.': 'Pioneer', 'Mead.': 'Meadow', Shrub: 'Shrubland', Forest: 'Young and mature forest',
+      Freed: 'Newly exposed that year',
+    };
+    const head = document.createElement('tr');
+    for (const [name, unit] of columns) {
+      const th = document.createElement('th');
+      th.scope = 'col';
+      th.textContent = name;
+      if (titles[name]) th.title = titles[name];
+      if (unit) {
+        const span = document.createElement('span');
+        span.className = 'zone-unit';
+        span.textContent = unit;
+        th.append(span);
+      }
+      head.append(th);
+    }
+    this.el.head.replaceChildren(head);
+    const rows = [...years].sort((a, b) => a - b).map((year) => {
+      const k = year - first;
+      const cells = [(count(t.ice_area_km2[k]) * cellHa).toFixed(1)];
+      if (plants) {
+        const s = t.stage_area_km2.map((areas) => count(areas[k]));
+        cells.push(share(s[1]), share(s[2]), share(s[3]), share(s[4]), share(s[5] + s[6]));
+      } else {
+        cells.push(t.ice_volume_km3[k].toFixed(4), (count(t.newly_exposed_area_km2[k]) * cellHa).toFixed(1));
+      }
+      const tr = document.createElement('tr');
+      tr.dataset.year = String(year);
+      if (year === shown) {
+        tr.className = 'zone-current';
+        tr.setAttribute('aria-current', 'true');
+      }
+      const th = document.createElement('th');
+      th.scope = 'row';
+      th.textContent = String(year);
+      tr.append(th, ...cells.map((text) => {
+        const td = document.createElement('td');
+        td.textContent = text;
+        return td;
+      }));
+      return tr;
+    });
+    this.el.body.replaceChildren(...rows);
+  }
+
+  downloadCsv() {
+    if (!this.timeline) return;
+    try {
+      const csv = this.workspace.exportZoneCsv();
+      download([csv], this.zone.csv_file_name, 'text/csv');
+    } catch (error) {
+      this.showError(error.message ?? String(error));
+    }
+  }
+
+  /** The zone's polygons over the map: a light fill and a dark-and-light outline. */
+  drawOutline(ctx, view) {
+    if (!this.zone || !this.workspace.hasZone()) return;
+    ctx.beginPath();
+    for (const ring of this.zone.rings) {
+      ring.forEach(([x, y], i) => {
+        const sx = view.offsetX + x * view.scale;
+        const sy = view.offsetY + y * view.scale;
+        if (i === 0) ctx.moveTo(sx, sy);
+        else ctx.lineTo(sx, sy);
+      });
+      ctx.closePath();
+    }
+    ctx.fillStyle = 'rgba(176, 82, 29, 0.12)';
+    ctx.fill('evenodd');
+    for (const [colour, width] of [['rgba(255,255,255,0.9)', 3.5], ['#b0521d', 1.5]]) {
+      ctx.strokeStyle = colour;
+      ctx.lineWidth = width;
+      ctx.stroke();
+    }
+  }
+}
