@@ -8,10 +8,18 @@
 //! shaded relief so the layer stands out. The stage palette separates neighbouring stages by
 //! lightness as well as hue. Plant cover runs from pale cream (none) to deep green (full);
 //! the soil index from pale sand (raw till) to dark brown (developed soil).
+//!
+//! The planner analyses (new lakes, steep bare ground) draw over a paler, flatter relief so
+//! the few cells they mark stand out. Lakes are level water, so they are drawn unshaded, in
+//! their legend's own colours, from light blue (shallow) to deep navy (deep); steep bare ground
+//! is one dark vermillion class, darker than any of the pale relief, so it reads in greyscale.
 
 use serde::Serialize;
 
+use crate::grid::Grid;
+use crate::lakes::LakeMap;
 use crate::render::{ColorRamp, LegendStop};
+use crate::steep_ground::{self, STEEP_SLOPE_DEG};
 use crate::timeline::{PlantQuantity, Timeline, COVERED, NEVER_COVERED};
 
 /// Ice thickness: pale ice-blue for thin ice to deep blue for thick ice (L* falls).
@@ -58,6 +66,32 @@ pub const SOIL_RAMP: ColorRamp = ColorRamp {
     ],
 };
 
+/// Lake depth: light blue (shallow) to deep navy (deep); L* falls.
+pub const LAKE_RAMP: ColorRamp = ColorRamp {
+    stops: &[
+        (0.0, [146, 204, 232]),
+        (0.25, [84, 156, 206]),
+        (0.5, [38, 106, 172]),
+        (0.75, [22, 70, 138]),
+        (1.0, [12, 38, 96]),
+    ],
+};
+
+/// Depth at the dark end of [`LAKE_RAMP`], m; deeper water takes its colour. Fixed, so
+/// years, runs and scenarios compare on one scale.
+pub const LAKE_DEPTH_SCALE_M: f32 = 50.0;
+
+/// Ice-free part of a lake basin still touching ice (no lake drawn: not modelled).
+pub const BASIN_AGAINST_ICE: [u8; 3] = [158, 200, 196];
+
+/// Steep bare ground: dark vermillion.
+pub const STEEP_BARE: [u8; 3] = [170, 62, 18];
+
+/// The caution of the lake and slope layers.
+pub const ANALYSIS_CAUTION: &str = "Planning-level indication, not a hazard assessment: \
+glacial lakes may drain suddenly (outburst floods) and steep moraine may fail; for either, \
+consult local authorities and qualified professionals.";
+
 /// Flat colour of ice where a layer describes the ground, not the ice.
 pub const ICE_FLAT: [u8; 3] = [216, 233, 243];
 
@@ -90,6 +124,10 @@ pub enum LayerKind {
     Cover(usize),
     /// Soil development index, 0-1.
     Soil,
+    /// New lakes: fill depth of ice-free depressions of the bed, m ([`crate::lakes`]).
+    Lakes,
+    /// Steep bare ground, one class ([`crate::steep_ground`]).
+    SteepBare,
 }
 
 impl LayerKind {
@@ -100,6 +138,8 @@ impl LayerKind {
             "exposure_year" => Some(LayerKind::ExposureYear),
             "stage" => Some(LayerKind::Stage),
             "soil" => Some(LayerKind::Soil),
+            "lakes" => Some(LayerKind::Lakes),
+            "steep_bare" => Some(LayerKind::SteepBare),
             _ => name
                 .strip_prefix("cover:")
                 .and_then(|t| t.parse().ok())
@@ -138,6 +178,18 @@ pub struct LayerRenderer {
     ground_rgba: Vec<u8>,
     /// Stage per cell of the year being drawn (scratch).
     stage: Vec<u8>,
+    /// What the lake and slope layers need of the bed, found once.
+    bed: Option<BedAnalyses>,
+}
+
+/// The parts of the lake and slope layers that do not change from year to year.
+#[derive(Clone, Debug)]
+struct BedAnalyses {
+    lakes: LakeMap,
+    /// Cells at least [`STEEP_SLOPE_DEG`] steep.
+    steep: Vec<u32>,
+    /// Pale relief as RGBA bytes of the whole grid.
+    pale_ground_rgba: Vec<u8>,
 }
 
 impl LayerRenderer {
@@ -167,7 +219,32 @@ impl LayerRenderer {
             light,
             ground_rgba,
             stage: Vec::new(),
+            bed: None,
         }
+    }
+
+    /// Adds the lake and slope layers of `bed` (the ground under the starting ice) with its
+    /// Horn slope `slope_deg`: fills the depressions and picks the steep cells once, so a draw
+    /// only checks them against the year's ice and stages.
+    pub fn with_bed_analyses(mut self, bed: &Grid, slope_deg: &[f32]) -> LayerRenderer {
+        if bed.values.len() != self.light.len() {
+            return self;
+        }
+        let mut pale_ground_rgba = vec![0; 4 * self.light.len()];
+        for (idx, &l) in self.light.iter().enumerate() {
+            put(&mut pale_ground_rgba, idx, PALE_GREY, pale(l));
+        }
+        self.bed = Some(BedAnalyses {
+            lakes: LakeMap::from_bed(bed),
+            steep: steep_ground::steep_cells(bed, slope_deg),
+            pale_ground_rgba,
+        });
+        self
+    }
+
+    /// The lakes found at load, if the renderer was given the bed.
+    pub fn lake_map(&self) -> Option<&LakeMap> {
+        self.bed.as_ref().map(|b| &b.lakes)
     }
 
     /// Fills `rgba` (4 bytes per cell) with `kind` at the end of `year`.
@@ -179,7 +256,11 @@ impl LayerRenderer {
             return;
         }
         rgba.clear();
-        rgba.extend_from_slice(&self.ground_rgba);
+        if let (LayerKind::Lakes | LayerKind::SteepBare, Some(bed)) = (kind, &self.bed) {
+            rgba.extend_from_slice(&bed.pale_ground_rgba);
+        } else {
+            rgba.extend_from_slice(&self.ground_rgba);
+        }
         let light = &self.light;
         match kind {
             LayerKind::IceThickness => {
@@ -228,7 +309,51 @@ impl LayerRenderer {
                 // The plants' ground under ice is drawn as ice.
                 timeline.for_each_ice_cell(year, |idx, _| put(rgba, idx, ICE_FLAT, light[idx]));
             }
+            LayerKind::Lakes => {
+                let Some(bed) = &self.bed else { return };
+                timeline.for_each_ice_cell(year, |idx, _| put(rgba, idx, ICE_FLAT, light[idx]));
+                let lut = lut(LAKE_RAMP);
+                let to_index = 255.0 / LAKE_DEPTH_SCALE_M;
+                for lake in &bed.lakes.lakes {
+                    if LakeMap::is_ice_free(lake, timeline, year) {
+                        for &c in &lake.cells {
+                            let c = c as usize;
+                            let depth = bed.lakes.depth_m[c];
+                            put(rgba, c, lut[((depth * to_index) as usize).min(255)], 256);
+                        }
+                    } else {
+                        for &c in &lake.cells {
+                            let c = c as usize;
+                            if !timeline.cover_at(c, year).0 {
+                                put(rgba, c, BASIN_AGAINST_ICE, pale(light[c]));
+                            }
+                        }
+                    }
+                }
+            }
+            LayerKind::SteepBare => {
+                let Some(bed) = &self.bed else { return };
+                timeline.for_each_ice_cell(year, |idx, _| put(rgba, idx, ICE_FLAT, light[idx]));
+                timeline.fill_stage(year, &mut self.stage);
+                steep_ground::for_each_steep_bare(&bed.steep, &self.stage, |c| {
+                    put(rgba, c, STEEP_BARE, pale(light[c]));
+                });
+            }
         }
+    }
+}
+
+/// Grey of the pale relief under the lake and slope layers, before shading.
+const PALE_GREY: [u8; 3] = [218, 216, 212];
+
+/// Light of the pale relief: a third of the ordinary relief's contrast, so shadows never
+/// reach the darkness of [`STEEP_BARE`] (1/256 units; 0 stays nodata).
+#[inline]
+fn pale(light: u16) -> u16 {
+    if light == 0 {
+        0
+    } else {
+        256 - (256 - light.min(256)) / 3
     }
 }
 
@@ -347,6 +472,49 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
             classes: vec![class("under ice", ICE_FLAT)],
             note: "0 raw till, 1 mature soil.".into(),
         },
+        LayerKind::Lakes => LayerLegend {
+            title: "New lakes (potential), depth".into(),
+            unit: "m".into(),
+            min: 0.0,
+            max: f64::from(LAKE_DEPTH_SCALE_M),
+            stops: ramp_stops(LAKE_RAMP, 0.0, f64::from(LAKE_DEPTH_SCALE_M)),
+            classes: vec![
+                class(
+                    "basin still against ice (lake not modelled)",
+                    BASIN_AGAINST_ICE,
+                ),
+                class("ice", ICE_FLAT),
+                class("other ground", PALE_GREY),
+            ],
+            note: format!(
+                "{ANALYSIS_CAUTION} Depressions of the bed at least {} m deep and {} km2, \
+                 filled to their spill level, shown once they and their shore are ice-free; \
+                 lakes under or against ice, dam breaches and sediment infill are not \
+                 modelled. {:.0} m and deeper in the darkest blue.",
+                crate::lakes::MIN_LAKE_DEPTH_M,
+                crate::lakes::MIN_LAKE_AREA_M2 / 1e6,
+                LAKE_DEPTH_SCALE_M
+            ),
+        },
+        LayerKind::SteepBare => LayerLegend {
+            title: "Steep bare ground".into(),
+            unit: String::new(),
+            min: 0.0,
+            max: 0.0,
+            stops: Vec::new(),
+            classes: vec![
+                class(
+                    &format!("steeper than {STEEP_SLOPE_DEG:.0} degrees, bare or pioneer"),
+                    STEEP_BARE,
+                ),
+                class("ice", ICE_FLAT),
+                class("other ground", PALE_GREY),
+            ],
+            note: format!(
+                "{ANALYSIS_CAUTION} Slope of the bed by Horn's method on the grid's cells, \
+                 so narrower steep steps do not show."
+            ),
+        },
     }
 }
 
@@ -374,7 +542,8 @@ mod tests {
         check_monotonic(EXPOSURE_RAMP, true);
         check_monotonic(COVER_RAMP, false);
         check_monotonic(SOIL_RAMP, false);
-        for ramp in [ICE_RAMP, EXPOSURE_RAMP, COVER_RAMP, SOIL_RAMP] {
+        check_monotonic(LAKE_RAMP, false);
+        for ramp in [ICE_RAMP, EXPOSURE_RAMP, COVER_RAMP, SOIL_RAMP, LAKE_RAMP] {
             let span = (lightness(ramp.at(0.0)) - lightness(ramp.at(1.0))).abs();
             assert!(span > 60.0, "L* span only {span}");
         }
@@ -387,6 +556,61 @@ mod tests {
             let (a, b) = (lightness(pair[0].1), lightness(pair[1].1));
             assert!(a - b > 5.0, "{} ({a}) vs {} ({b})", pair[0].0, pair[1].0);
         }
+    }
+
+    #[test]
+    fn steep_bare_is_darker_than_the_pale_relief_in_its_deepest_shadow() {
+        let shadow = pale(((SHADE_FLOOR * 256.0).round()) as u16);
+        let darkest_ground = PALE_GREY.map(|c| ((u32::from(c) * u32::from(shadow)) >> 8) as u8);
+        let brightest_steep = lightness(STEEP_BARE);
+        assert!(lightness(darkest_ground) - brightest_steep > 10.0);
+    }
+
+    #[test]
+    fn a_lake_shows_once_it_and_its_shore_are_ice_free() {
+        // 5 x 5 bed of 10 m cells with a one-cell pit 3 m deep at the centre; ice covers the
+        // pit until 2001 and its east neighbour (the shore) until 2002.
+        let geometry = crate::grid::GridGeometry {
+            n_cols: 5,
+            n_rows: 5,
+            cell_size_m: 10.0,
+            west_m: 0.0,
+            north_m: 0.0,
+            epsg: None,
+        };
+        let mut bed = Grid::filled(geometry, 100.0);
+        bed.values[12] = 97.0;
+        let mut ice = vec![0.0_f32; 25];
+        ice[12] = 20.0;
+        ice[13] = 20.0;
+        let mut recorder = TimelineRecorder::new(25, 2000, 1, &ice, DEFAULT_FRAME_BUDGET_BYTES);
+        ice[12] = 0.0;
+        recorder.record_year(2001, &ice);
+        ice[13] = 0.0;
+        recorder.record_year(2002, &ice);
+        let timeline = recorder.finish(&ice);
+        let slope = vec![0.0; 25];
+        let lakes = crate::lakes::LakeMap::from_bed_with(&bed, 1.0, 100.0);
+        assert_eq!(lakes.lakes.len(), 1);
+        let mut renderer = LayerRenderer::new(&[1.0; 25], &[false; 25]);
+        renderer.bed = Some(BedAnalyses {
+            lakes,
+            steep: steep_ground::steep_cells(&bed, &slope),
+            pale_ground_rgba: vec![0; 100],
+        });
+        let mut rgba = Vec::new();
+        let at = |rgba: &Vec<u8>, idx: usize| [rgba[4 * idx], rgba[4 * idx + 1], rgba[4 * idx + 2]];
+        renderer.render(&timeline, LayerKind::Lakes, 2000, &mut rgba);
+        assert_eq!(at(&rgba, 12), ICE_FLAT);
+        renderer.render(&timeline, LayerKind::Lakes, 2001, &mut rgba);
+        assert_eq!(at(&rgba, 12), BASIN_AGAINST_ICE);
+        renderer.render(&timeline, LayerKind::Lakes, 2002, &mut rgba);
+        // 3 m on a 50 m scale, unshaded.
+        let expected = LAKE_RAMP.at(((3.0 * 255.0 / LAKE_DEPTH_SCALE_M) as usize) as f32 / 255.0);
+        assert_eq!(at(&rgba, 12), expected);
+        assert!(legend(&timeline, LayerKind::Lakes)
+            .note
+            .contains("outburst floods"));
     }
 
     #[test]

@@ -6,13 +6,18 @@
 //! Values and types: ice thickness (m, f32, 0 where ice-free); exposure year (f32: the
 //! year, [`EXPOSED_BEFORE_START_VALUE`] for ground ice-free from the start, nodata under ice);
 //! succession stage (u8 codes 0-6, nodata 255); cover of a plant type (%, f32); soil
-//! index (0-1, f32). Cells without a DEM value are nodata; the float nodata value is
-//! [`NODATA_VALUE`]. All values are those the map draws.
+//! index (0-1, f32); new lakes (fill depth m, f32, 0 outside the lakes ice-free that year);
+//! steep bare ground (u8, 1 steep bare, 0 other ground, nodata 255). Cells without a DEM
+//! value are nodata; the float nodata value is [`NODATA_VALUE`]. All values are those the map
+//! draws.
 
-use super::{check_layer, check_run, layer_file_stem, ExportError, ExportMeta, CAUTION};
+use super::{bed_of, check_layer, check_run, layer_file_stem, ExportError, ExportMeta, CAUTION};
 use crate::geotiff::{write_geotiff_described, SampleType, TiffCompression, WriteOptions};
 use crate::grid::Grid;
+use crate::lakes::LakeMap;
 use crate::layers::LayerKind;
+use crate::steep_ground;
+use crate::terrain::{self, Sun};
 use crate::timeline::{PlantQuantity, Timeline, COVERED, NEVER_COVERED};
 
 /// Nodata marker of float layers.
@@ -68,6 +73,21 @@ pub fn layer_grid(
             };
             timeline.for_each_plant_value(year, quantity, |idx, q| values[idx] = q * scale);
         }
+        LayerKind::Lakes => {
+            LakeMap::from_bed(&bed_of(dem, timeline)).fill_year_depth(timeline, year, values);
+        }
+        LayerKind::SteepBare => {
+            let bed = bed_of(dem, timeline);
+            let slope = terrain::derivatives(&bed, Sun::default()).slope_deg;
+            let mut stage = Vec::new();
+            timeline.fill_stage(year, &mut stage);
+            steep_ground::for_each_steep_bare(
+                &steep_ground::steep_cells(&bed, &slope),
+                &stage,
+                |c| values[c] = 1.0,
+            );
+            grid.nodata_value = Some(STAGE_NODATA);
+        }
     }
     for (v, &missing) in grid.values.iter_mut().zip(&grid.nodata) {
         if missing {
@@ -77,7 +97,8 @@ pub fn layer_grid(
     Ok(grid)
 }
 
-/// `kind` at the end of `year` as GeoTIFF bytes (Deflate; u8 for stages, else f32), with
+/// `kind` at the end of `year` as GeoTIFF bytes (Deflate; u8 for stages and steep bare
+/// ground, else f32), with
 /// the layer, year, provenance and caution in its ImageDescription.
 pub fn layer_geotiff(
     timeline: &Timeline,
@@ -88,7 +109,7 @@ pub fn layer_geotiff(
 ) -> Result<Vec<u8>, ExportError> {
     let grid = layer_grid(timeline, dem, kind, year)?;
     let options = WriteOptions {
-        sample_type: if kind == LayerKind::Stage {
+        sample_type: if matches!(kind, LayerKind::Stage | LayerKind::SteepBare) {
             SampleType::U8
         } else {
             SampleType::F32

@@ -100,7 +100,9 @@ pub fn layer_kind(timeline: &Timeline, name: &str) -> Result<LayerKind, ExportEr
 /// A plant layer asked of a run without plants, or a type the run does not have.
 pub fn check_layer(timeline: &Timeline, kind: LayerKind) -> Result<(), ExportError> {
     match kind {
-        LayerKind::Stage | LayerKind::Soil | LayerKind::Cover(_) if !timeline.has_plants() => {
+        LayerKind::Stage | LayerKind::Soil | LayerKind::Cover(_) | LayerKind::SteepBare
+            if !timeline.has_plants() =>
+        {
             Err(ExportError::NoPlants)
         }
         LayerKind::Cover(index) if index >= timeline.type_names().len() => {
@@ -114,7 +116,7 @@ pub fn check_layer(timeline: &Timeline, kind: LayerKind) -> Result<(), ExportErr
 }
 
 /// The layer's name for file names: `ice_thickness`, `exposure_year`, `stage`, `soil`,
-/// `cover_<index>`.
+/// `cover_<index>`, `lakes`, `steep_bare`.
 pub fn layer_file_stem(kind: LayerKind) -> String {
     match kind {
         LayerKind::IceThickness => "ice_thickness".into(),
@@ -122,6 +124,8 @@ pub fn layer_file_stem(kind: LayerKind) -> String {
         LayerKind::Stage => "stage".into(),
         LayerKind::Soil => "soil".into(),
         LayerKind::Cover(t) => format!("cover_{t}"),
+        LayerKind::Lakes => "lakes".into(),
+        LayerKind::SteepBare => "steep_bare".into(),
     }
 }
 
@@ -167,10 +171,13 @@ pub fn bed_of(dem: &Grid, timeline: &Timeline) -> Grid {
 }
 
 /// The renderer the page's map uses for a timeline: layers over Horn hillshade of the bed,
-/// so ground the ice leaves shows its own relief rather than the old glacier surface.
+/// so ground the ice leaves shows its own relief rather than the old glacier surface, with
+/// the bed's lakes and steep cells found once for the lake and slope layers.
 pub fn bed_renderer(dem: &Grid, timeline: &Timeline) -> LayerRenderer {
-    let shade = terrain::derivatives(&bed_of(dem, timeline), Sun::default()).hillshade;
-    LayerRenderer::new(&shade, &dem.nodata)
+    let bed = bed_of(dem, timeline);
+    let derivatives = terrain::derivatives(&bed, Sun::default());
+    LayerRenderer::new(&derivatives.hillshade, &dem.nodata)
+        .with_bed_analyses(&bed, &derivatives.slope_deg)
 }
 
 /// Text on one line: line breaks and other control characters become spaces.
