@@ -741,17 +741,30 @@ impl VegetationModel {
             let rates = &setup.rates;
             let key = draw_key(self.establishment_key, year, t);
             let n_chunks = n.div_ceil(CHUNK);
+            let first_chunk = cells.start / CHUNK;
+            let mut skip_flags = [false; BLOCK / CHUNK];
+            for (k, flag) in skip_flags
+                .iter_mut()
+                .enumerate()
+                .take(cells.len().div_ceil(CHUNK))
+            {
+                let chunk = first_chunk + k;
+                *flag = !self.chunk_occupied[t * n_chunks + chunk]
+                    && (self.chunk_max_temp_c[chunk] + anomaly_c < rates.min_temp_c
+                        || self.chunk_max_soil[chunk] < rates.min_soil
+                        || self.chunk_min_slope_deg[chunk] > rates.max_slope_deg);
+            }
+            let skip = |chunk: usize| skip_flags[chunk - first_chunk];
             let mut start = cells.start;
             while start < cells.end {
-                let end = (start + CHUNK).min(cells.end);
-                let chunk = start / CHUNK;
-                let occupied = &mut self.chunk_occupied[t * n_chunks + chunk];
-                let barren = self.chunk_max_temp_c[chunk] + anomaly_c < rates.min_temp_c
-                    || self.chunk_max_soil[chunk] < rates.min_soil
-                    || self.chunk_min_slope_deg[chunk] > rates.max_slope_deg;
-                if !*occupied && barren {
-                    start = end;
+                if skip(start / CHUNK) {
+                    start = (start + CHUNK).min(cells.end);
                     continue;
+                }
+                // One call over the whole run of chunks that need an update.
+                let mut end = (start + CHUNK).min(cells.end);
+                while end < cells.end && !skip(end / CHUNK) {
+                    end = (end + CHUNK).min(cells.end);
                 }
                 let local = start - cells.start..end - cells.start;
                 let layer = t * n + start..t * n + end;
@@ -778,9 +791,11 @@ impl VegetationModel {
                         oldest_tree_age_a: &mut oldest[local],
                     },
                 );
-                let chunk_cover = lane_sum(&self.state.cover[layer]);
-                *occupied = chunk_cover > 0.0;
-                cover_sums[t] += chunk_cover;
+                for (k, chunk_cells) in self.state.cover[layer].chunks(CHUNK).enumerate() {
+                    let chunk_cover = lane_sum(chunk_cells);
+                    self.chunk_occupied[t * n_chunks + start / CHUNK + k] = chunk_cover > 0.0;
+                    cover_sums[t] += chunk_cover;
+                }
                 start = end;
             }
         }
