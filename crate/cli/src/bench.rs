@@ -7,7 +7,9 @@ use std::time::Instant;
 
 use anyhow::{bail, Context, Result};
 use forefield_engine::coupled::CoupledSimulation;
+use forefield_engine::dispersal::{direct_convolution, Boundary, DispersalOperator, Kernel};
 use forefield_engine::geotiff::read_geotiff;
+use forefield_engine::pft::PlantType;
 use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation};
 use forefield_engine::Grid;
@@ -16,7 +18,8 @@ use forefield_engine::Grid;
 pub const BENCH_SCENARIO_JSON: &str = r#"{"version": 1, "name": "benchmark", "n_years": 200}"#;
 const DEFAULT_REPEATS: usize = 3;
 
-/// `--grids DIR` (default sample-grids/large), `--repeats N` (default 3), `--only ice|coupled`.
+/// `--grids DIR` (default sample-grids/large), `--repeats N` (default 3),
+/// `--only ice|coupled|dispersal`.
 pub fn bench(args: &[String]) -> Result<()> {
     let repeats = match crate::flag(args, "--repeats")? {
         Some(s) => s
@@ -28,8 +31,15 @@ pub fn bench(args: &[String]) -> Result<()> {
     };
     let only = crate::flag(args, "--only")?;
     if let Some(only) = &only {
-        if only != "ice" && only != "coupled" {
-            bail!("--only {only:?}: give ice or coupled");
+        if !["ice", "coupled", "dispersal"].contains(&only.as_str()) {
+            bail!("--only {only:?}: give ice, coupled or dispersal");
+        }
+    }
+    let wanted = |part: &str| only.as_deref().is_none_or(|o| o == part);
+    if wanted("dispersal") {
+        bench_dispersal(repeats)?;
+        if only.is_some() {
+            return Ok(());
         }
     }
     let dir =
@@ -43,10 +53,10 @@ pub fn bench(args: &[String]) -> Result<()> {
     let ice = read("valley_ice_thickness.tif")?;
     let bed = bed_from_surface(&surface, &ice)?;
     let scenario = Scenario::from_json(BENCH_SCENARIO_JSON)?;
-    if only.as_deref() != Some("coupled") {
+    if wanted("ice") {
         bench_ice(&bed, &ice, &scenario, repeats)?;
     }
-    if only.as_deref() != Some("ice") {
+    if wanted("coupled") {
         let stages = read("valley_vegetation.tif")?;
         bench_coupled(&bed, &ice, &stages, &scenario, repeats)?;
     }
@@ -129,6 +139,78 @@ fn bench_coupled(
         g.n_rows,
         median / years as f64,
         (g.n_cells() * years) as f64 / median,
+    );
+    Ok(())
+}
+
+/// The fast convolution against the direct one at a 40-cell kernel radius: the pioneer
+/// type's 2Dt kernel on a 256 x 256 grid of 25 m cells with scattered seed sources, the
+/// fast one at full resolution (as the direct one) and on the coupled run's 2 x 2 blocks.
+fn bench_dispersal(repeats: usize) -> Result<()> {
+    const N: usize = 256;
+    const RADIUS_CELLS: usize = 40;
+    const CELL_M: f64 = 25.0;
+    let pioneer = PlantType::pioneer_herbs();
+    let kernel = Kernel::from_mean(
+        pioneer.kernel,
+        pioneer.mean_dispersal_m,
+        pioneer.kernel_shape_p,
+    )?;
+    // A fixed scatter of sources: every 7th cell of a block and a few lone cells.
+    let production: Vec<f32> = (0..N * N)
+        .map(|i| {
+            let (row, col) = (i / N, i % N);
+            let block = (80..140).contains(&row) && (60..120).contains(&col) && i % 7 == 0;
+            let lone = (row * 31 + col * 17) % 997 == 0;
+            if block || lone {
+                100.0
+            } else {
+                0.0
+            }
+        })
+        .collect();
+    let mut direct = vec![0.0; N * N];
+    let started = Instant::now();
+    direct_convolution(
+        &kernel,
+        CELL_M,
+        N,
+        N,
+        RADIUS_CELLS,
+        &production,
+        &mut direct,
+    );
+    let direct_s = started.elapsed().as_secs_f64();
+    let mut fast_s = [0.0; 2];
+    let mut error = [0.0; 2];
+    for (slot, base_factor) in [1usize, 2].into_iter().enumerate() {
+        let operator =
+            DispersalOperator::new(&kernel, CELL_M, N, N, base_factor, Boundary::Absorbing);
+        let mut scratch = operator.scratch();
+        let mut fast = vec![0.0; N * N];
+        let mut seconds = Vec::with_capacity(repeats);
+        for _ in 0..repeats.max(3) {
+            let started = Instant::now();
+            operator.apply(&production, &mut fast, &mut scratch);
+            seconds.push(started.elapsed().as_secs_f64());
+        }
+        fast_s[slot] = spread(seconds).0;
+        let diff: f64 = fast
+            .iter()
+            .zip(&direct)
+            .map(|(&a, &b)| f64::from((a - b).abs()))
+            .sum();
+        error[slot] = diff / direct.iter().map(|&b| f64::from(b)).sum::<f64>();
+    }
+    println!(
+        "{{\"bench\":\"dispersal_fast_vs_direct\",\"side\":\"native\",\"grid\":\"{N}x{N}\",\"kernel\":\"2dt mean {} m\",\"radius_cells\":{RADIUS_CELLS},\"direct_seconds\":{direct_s:.4},\"fast_seconds\":{:.6},\"fast_blocks_seconds\":{:.6},\"speedup\":{:.0},\"speedup_blocks\":{:.0},\"relative_l1_difference\":{:.4},\"relative_l1_difference_blocks\":{:.4}}}",
+        pioneer.mean_dispersal_m,
+        fast_s[0],
+        fast_s[1],
+        direct_s / fast_s[0],
+        direct_s / fast_s[1],
+        error[0],
+        error[1],
     );
     Ok(())
 }
