@@ -11,6 +11,7 @@ mod ice_halfar;
 mod ice_mass_balance;
 mod ice_outline;
 mod ice_response;
+mod lakes_priority_flood;
 mod outline_mask;
 mod terrain_horn;
 mod veg_chronosequence;

@@ -10,8 +10,10 @@
 //! surface (the level of its spill point); it counts as a lake when it is at least
 //! [`MIN_LAKE_DEPTH_M`] deep and covers at least [`MIN_LAKE_AREA_M2`].
 //!
-//! A lake is shown in a year only when none of its cells nor the ring of cells around it is
-//! under ice: water held by ice (ice-dammed or ice-contact lakes) and water under ice are not
+//! New lakes are those with at least one cell under ice at some time in the run: pits in
+//! ground that stays ice-free throughout are grid artefacts or ground the planner already
+//! knows. A lake is shown in a year only when none of its cells nor the ring of cells around
+//! it is under ice: water held by ice (ice-dammed or ice-contact lakes) and water under ice are not
 //! modelled. The lake's level assumes the outlet does not erode and the dam holds; glacial
 //! lakes can drain suddenly, so these are planning indications, not hazard assessments.
 
@@ -204,6 +206,31 @@ impl LakeMap {
             lake.shore = shore;
         }
         LakeMap { depth_m, lakes }
+    }
+
+    /// The lakes of `bed` that lie at least partly on ground the run had under ice, numbered
+    /// afresh from 1.
+    pub fn new_lakes(bed: &Grid, timeline: &Timeline) -> LakeMap {
+        let mut map = Self::from_bed(bed);
+        if timeline.n_cells() != map.depth_m.len() {
+            return map;
+        }
+        let mut glaciated = vec![false; map.depth_m.len()];
+        timeline.for_each_glaciated_cell(timeline.start_year(), |idx, _| glaciated[idx] = true);
+        let depth_m = &mut map.depth_m;
+        map.lakes.retain(|lake| {
+            let new = lake.cells.iter().any(|&c| glaciated[c as usize]);
+            if !new {
+                for &c in &lake.cells {
+                    depth_m[c as usize] = 0.0;
+                }
+            }
+            new
+        });
+        for (k, lake) in map.lakes.iter_mut().enumerate() {
+            lake.id = k as u32 + 1;
+        }
+        map
     }
 
     /// Whether `lake` is free of ice at the end of `year`: none of its cells nor its shore is

@@ -223,10 +223,15 @@ impl LayerRenderer {
         }
     }
 
-    /// Adds the lake and slope layers of `bed` (the ground under the starting ice) with its
-    /// Horn slope `slope_deg`: fills the depressions and picks the steep cells once, so a draw
-    /// only checks them against the year's ice and stages.
-    pub fn with_bed_analyses(mut self, bed: &Grid, slope_deg: &[f32]) -> LayerRenderer {
+    /// Adds the lake and slope layers of `bed` (the ground under the starting ice of
+    /// `timeline`) with its Horn slope `slope_deg`: finds the new lakes and the steep cells
+    /// once, so a draw only checks them against the year's ice and stages.
+    pub fn with_bed_analyses(
+        mut self,
+        bed: &Grid,
+        slope_deg: &[f32],
+        timeline: &Timeline,
+    ) -> LayerRenderer {
         if bed.values.len() != self.light.len() {
             return self;
         }
@@ -235,7 +240,7 @@ impl LayerRenderer {
             put(&mut pale_ground_rgba, idx, PALE_GREY, pale(l));
         }
         self.bed = Some(BedAnalyses {
-            lakes: LakeMap::from_bed(bed),
+            lakes: LakeMap::new_lakes(bed, timeline),
             steep: steep_ground::steep_cells(bed, slope_deg),
             pale_ground_rgba,
         });
@@ -346,14 +351,14 @@ impl LayerRenderer {
 /// Grey of the pale relief under the lake and slope layers, before shading.
 const PALE_GREY: [u8; 3] = [218, 216, 212];
 
-/// Light of the pale relief: a third of the ordinary relief's contrast, so shadows never
+/// Light of the pale relief: half the ordinary relief's contrast, so shadows never
 /// reach the darkness of [`STEEP_BARE`] (1/256 units; 0 stays nodata).
 #[inline]
 fn pale(light: u16) -> u16 {
     if light == 0 {
         0
     } else {
-        256 - (256 - light.min(256)) / 3
+        256 - (256 - light.min(256)) / 2
     }
 }
 
@@ -487,8 +492,8 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
                 class("other ground", PALE_GREY),
             ],
             note: format!(
-                "{ANALYSIS_CAUTION} Depressions of the bed at least {} m deep and {} km2, \
-                 filled to their spill level, shown once they and their shore are ice-free; \
+                "{ANALYSIS_CAUTION} Depressions of the bed at least {} m deep and {} km2 \
+                 on ground the run had under ice, filled to their spill level, shown once they and their shore are ice-free; \
                  lakes under or against ice, dam breaches and sediment infill are not \
                  modelled. {:.0} m and deeper in the darkest blue.",
                 crate::lakes::MIN_LAKE_DEPTH_M,

@@ -74,7 +74,8 @@ pub fn layer_grid(
             timeline.for_each_plant_value(year, quantity, |idx, q| values[idx] = q * scale);
         }
         LayerKind::Lakes => {
-            LakeMap::from_bed(&bed_of(dem, timeline)).fill_year_depth(timeline, year, values);
+            LakeMap::new_lakes(&bed_of(dem, timeline), timeline)
+                .fill_year_depth(timeline, year, values);
         }
         LayerKind::SteepBare => {
             let bed = bed_of(dem, timeline);

@@ -176,8 +176,11 @@ pub fn bed_of(dem: &Grid, timeline: &Timeline) -> Grid {
 pub fn bed_renderer(dem: &Grid, timeline: &Timeline) -> LayerRenderer {
     let bed = bed_of(dem, timeline);
     let derivatives = terrain::derivatives(&bed, Sun::default());
-    LayerRenderer::new(&derivatives.hillshade, &dem.nodata)
-        .with_bed_analyses(&bed, &derivatives.slope_deg)
+    LayerRenderer::new(&derivatives.hillshade, &dem.nodata).with_bed_analyses(
+        &bed,
+        &derivatives.slope_deg,
+        timeline,
+    )
 }
 
 /// Text on one line: line breaks and other control characters become spaces.
