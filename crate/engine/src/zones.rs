@@ -29,6 +29,9 @@ use crate::layers::STAGE_PALETTE;
 use crate::outline::{outline_mask, OutlineError};
 use crate::timeline::{PlantQuantity, Timeline};
 
+/// Grid cells per zone cell above which a zone reads its own cells (see [`Zone::is_small`]).
+const SMALL_ZONE_FACTOR: usize = 8;
+
 /// A zone that could not be made from a file.
 #[derive(Debug, Clone, PartialEq, Error)]
 pub enum ZoneError {
@@ -103,6 +106,13 @@ impl Zone {
     /// Area of the zone's cells, km^2.
     pub fn area_km2(&self) -> f64 {
         self.n_cells as f64 * self.cell_km2()
+    }
+
+    /// Whether the zone is small enough beside the grid to read its cells one by one rather
+    /// than visiting the whole grid every year: a read through the per-cell accessors costs
+    /// several cells of a whole-grid pass.
+    fn is_small(&self) -> bool {
+        self.n_cells * SMALL_ZONE_FACTOR < self.geometry.n_cells()
     }
 
     fn cell_km2(&self) -> f64 {
@@ -185,6 +195,9 @@ struct IceSeries {
 }
 
 fn ice_series(timeline: &Timeline, zone: &Zone) -> IceSeries {
+    if zone.is_small() {
+        return ice_series_by_cell(timeline, zone);
+    }
     const OUTSIDE: u16 = u16::MAX;
     let n_years = (timeline.last_year() - timeline.start_year()) as usize + 1;
     // Per cell: OUTSIDE, or 1 + the last year offset it was seen under ice (0: not yet).
@@ -215,6 +228,43 @@ fn ice_series(timeline: &Timeline, zone: &Zone) -> IceSeries {
         out.newly_exposed
             .push(if k == 0 { 0 } else { before - still_ice });
         out.n_ice.push(n_ice);
+        out.volume_m3.push(thickness_sum_m * cell_area_m2);
+    }
+    out
+}
+
+/// As [`ice_series`] for a small zone: only its cells that were ever under ice, each read
+/// through [`Timeline::ice_thickness_at`] (zero when ice-free, at least 1 m when covered).
+fn ice_series_by_cell(timeline: &Timeline, zone: &Zone) -> IceSeries {
+    let mut in_zone = vec![false; timeline.n_cells()];
+    for idx in zone.cells() {
+        in_zone[idx] = true;
+    }
+    let mut glaciated = Vec::new();
+    timeline.for_each_glaciated_cell(timeline.start_year(), |idx, _| {
+        if in_zone[idx] {
+            glaciated.push(idx);
+        }
+    });
+    let cell_area_m2 = zone.geometry.cell_area_m2();
+    let mut was_covered = vec![false; glaciated.len()];
+    let mut out = IceSeries {
+        n_ice: Vec::new(),
+        volume_m3: Vec::new(),
+        newly_exposed: Vec::new(),
+    };
+    for (k, year) in (timeline.start_year()..=timeline.last_year()).enumerate() {
+        let (mut n_ice, mut exposed, mut thickness_sum_m) = (0usize, 0usize, 0.0f64);
+        for (&idx, was) in glaciated.iter().zip(was_covered.iter_mut()) {
+            let h = timeline.ice_thickness_at(idx, year);
+            let covered = h > 0.0;
+            n_ice += usize::from(covered);
+            exposed += usize::from(k > 0 && *was && !covered);
+            thickness_sum_m += f64::from(h);
+            *was = covered;
+        }
+        out.n_ice.push(n_ice);
+        out.newly_exposed.push(exposed);
         out.volume_m3.push(thickness_sum_m * cell_area_m2);
     }
     out
@@ -289,10 +339,17 @@ fn plant_means(
     let start = timeline.start_year();
     let keyframes = timeline.cover_keyframe_years();
     let fill = |year: i32, grid: &mut Vec<u8>| {
-        grid.clear();
         grid.resize(n, 0);
-        // At a keyframe year the value is the stored step, a whole number.
-        timeline.for_each_plant_value(year, quantity, |idx, v| grid[idx] = v.round() as u8);
+        // At a keyframe year the value is the stored step, a whole number. Only zone cells
+        // are read later, so a small zone fills only its own.
+        if zone.is_small() {
+            for idx in zone.cells() {
+                let v = timeline.plant_value_at(idx, year, quantity).unwrap_or(0.0);
+                grid[idx] = (v * 255.0 + 0.5) as u8;
+            }
+        } else {
+            timeline.for_each_plant_value(year, quantity, |idx, v| grid[idx] = (v + 0.5) as u8);
+        }
     };
     let mut free = stages.free_at_start.clone();
     let n_free_of = |k: usize| zone.n_cells - stages.counts[k][0];
@@ -657,11 +714,22 @@ mod tests {
         assert_eq!(zone.n_cells(), 24, "25 cells less the nodata corner");
         assert_eq!(zone.name(), "north west.geojson");
         assert_eq!(zone.csv_file_name(), "zone_north_west_timeline.csv");
+        // Columns 3-4, rows 3-4 (the cell that melts out and returns is 40, row 5): small
+        // beside the grid, so read cell by cell.
+        let small = r#"{"type":"Polygon","coordinates":[[[1030,2010],[1050,2010],[1050,2030],[1030,2030],[1030,2010]]]}"#;
+        let small = Zone::from_geojson(small, "small.geojson", &dem).unwrap();
+        assert!(small.is_small() && !zone.is_small());
+        let mut tiny = vec![false; N_COLS * N_ROWS];
+        tiny[40] = true;
+        tiny[41] = true;
+        let tiny = Zone::from_mask(&tiny, &geometry(), "tiny");
         for budgets in [(1 << 20, 1 << 20, 1 << 20), (2 * 96, 3 * 48, 3 * 144)] {
             let timeline = run(budgets);
-            let zt = zone_timeline(&timeline, &zone).unwrap();
-            assert_eq!(zt.years.len(), 13);
-            check_against_cells(&timeline, &zone, &zt);
+            for zone in [&zone, &small, &tiny] {
+                let zt = zone_timeline(&timeline, zone).unwrap();
+                assert_eq!(zt.years.len(), 13);
+                check_against_cells(&timeline, zone, &zt);
+            }
         }
         let sparse = run((2 * 96, 3 * 48, 3 * 144));
         let (s, c) = sparse.plant_intervals().unwrap();
