@@ -416,6 +416,9 @@ impl DispersalOperator {
             )
             .max()
             .unwrap_or(1);
+        // Grouped by level (stably, so each level sums its components in mixture order),
+        // for `apply` to pass over a level's rows once for all its components.
+        components.sort_by_key(|c| c.level);
         let level_identity_weight = level_identity_weight[..n_levels]
             .iter()
             .map(|&w| w as f32)
@@ -490,18 +493,17 @@ impl DispersalOperator {
                 *a = w * s;
             }
         }
-        for component in &self.components {
-            let shape = &shapes[component.level];
+        for group in self.components.chunk_by(|a, b| a.level == b.level) {
+            let shape = &shapes[group[0].level];
             let range = shape.offset..shape.offset + shape.n_cols * shape.n_rows;
             filter(
                 &sums[range.clone()],
                 &mut accum[range],
-                &mut vertical[..shape.n_cols * shape.n_rows],
+                vertical,
                 line,
                 shape.n_cols,
                 shape.n_rows,
-                &component.taps,
-                component.weight,
+                group,
                 self.boundary,
             );
         }
@@ -562,7 +564,6 @@ impl DispersalScratch {
         let shapes = pyramid_shapes(n_cols, n_rows, base_factor);
         let last = &shapes[shapes.len() - 1];
         let total = last.offset + last.n_cols * last.n_rows;
-        let base_cells = shapes[0].n_cols * shapes[0].n_rows;
         let longest = shapes[0].n_cols.max(shapes[0].n_rows);
         DispersalScratch {
             n_cols,
@@ -571,7 +572,7 @@ impl DispersalScratch {
             shapes,
             sums: vec![0.0; total],
             accum: vec![0.0; total],
-            vertical: vec![0.0; base_cells],
+            vertical: vec![0.0; longest],
             line: vec![0.0; 3 * longest + 4],
         }
     }
@@ -616,7 +617,10 @@ fn reflect(i: isize, n: usize) -> usize {
     }
 }
 
-/// `dst += weight * (taps (x) taps) * src`, separable, on an n_cols x n_rows level.
+/// `dst += weight * (taps (x) taps) * src` for each component of one level, separable, on
+/// an n_cols x n_rows level. Row by row: each output row is filtered vertically into
+/// `vertical` (one row) and at once horizontally into `dst`, every component in turn, so
+/// no whole intermediate image goes through memory and the rows stay in cache.
 #[allow(clippy::too_many_arguments)]
 fn filter(
     src: &[f32],
@@ -625,19 +629,10 @@ fn filter(
     line: &mut [f32],
     n_cols: usize,
     n_rows: usize,
-    taps: &[f32],
-    weight: f32,
+    components: &[Component],
     boundary: Boundary,
 ) {
-    if taps.len() == 1 {
-        for (d, &s) in dst.iter_mut().zip(src) {
-            *d += weight * s;
-        }
-        return;
-    }
-    let radius = taps.len() / 2;
-    // The taps are symmetric, so each pair of rows (or columns) at the same distance is
-    // added before one multiplication: half the multiplications of a plain FIR pass.
+    let out_v = &mut vertical[..n_cols];
     let row_at = |from: isize| -> Option<usize> {
         match boundary {
             Boundary::Absorbing if from < 0 || from >= n_rows as isize => None,
@@ -645,60 +640,67 @@ fn filter(
             Boundary::Reflecting => Some(reflect(from, n_rows)),
         }
     };
-    // Vertical pass: whole rows at a time, so the inner loop runs along contiguous memory.
+    let line_of = |r: usize| &src[r * n_cols..(r + 1) * n_cols];
     for row in 0..n_rows {
-        let out = &mut vertical[row * n_cols..(row + 1) * n_cols];
-        let centre = &src[row * n_cols..(row + 1) * n_cols];
-        let w = taps[radius];
-        for (o, &s) in out.iter_mut().zip(centre) {
-            *o = w * s;
-        }
-        for k in 1..=radius {
-            let w = taps[radius + k];
-            let above = row_at(row as isize - k as isize);
-            let below = row_at(row as isize + k as isize);
-            let line_of = |r: usize| &src[r * n_cols..(r + 1) * n_cols];
-            match (above, below) {
-                (Some(a), Some(b)) => {
-                    for ((o, &x), &y) in out.iter_mut().zip(line_of(a)).zip(line_of(b)) {
-                        *o += w * (x + y);
-                    }
-                }
-                (Some(r), None) | (None, Some(r)) => {
-                    for (o, &x) in out.iter_mut().zip(line_of(r)) {
-                        *o += w * x;
-                    }
-                }
-                (None, None) => {}
-            }
-        }
-    }
-    // Horizontal pass through a padded copy of each row.
-    let padded = &mut line[..n_cols + 2 * radius];
-    for row in 0..n_rows {
-        let src_row = &vertical[row * n_cols..(row + 1) * n_cols];
-        match boundary {
-            Boundary::Absorbing => {
-                padded.fill(0.0);
-                padded[radius..radius + n_cols].copy_from_slice(src_row);
-            }
-            Boundary::Reflecting => {
-                for (i, p) in padded.iter_mut().enumerate() {
-                    *p = src_row[reflect(i as isize - radius as isize, n_cols)];
-                }
-            }
-        }
         let out = &mut dst[row * n_cols..(row + 1) * n_cols];
-        let w = taps[radius] * weight;
-        for (o, &s) in out.iter_mut().zip(&padded[radius..radius + n_cols]) {
-            *o += w * s;
-        }
-        for k in 1..=radius {
-            let w = taps[radius + k] * weight;
-            let left = &padded[radius - k..radius - k + n_cols];
-            let right = &padded[radius + k..radius + k + n_cols];
-            for ((o, &x), &y) in out.iter_mut().zip(left).zip(right) {
-                *o += w * (x + y);
+        for component in components {
+            let (taps, weight) = (&component.taps, component.weight);
+            if taps.len() == 1 {
+                for (d, &s) in out.iter_mut().zip(line_of(row)) {
+                    *d += weight * s;
+                }
+                continue;
+            }
+            let radius = taps.len() / 2;
+            // The taps are symmetric, so each pair of rows (or columns) at the same distance
+            // is added before one multiplication: half the multiplications of a plain pass.
+            let w = taps[radius];
+            for (o, &s) in out_v.iter_mut().zip(line_of(row)) {
+                *o = w * s;
+            }
+            for k in 1..=radius {
+                let w = taps[radius + k];
+                let above = row_at(row as isize - k as isize);
+                let below = row_at(row as isize + k as isize);
+                match (above, below) {
+                    (Some(a), Some(b)) => {
+                        for ((o, &x), &y) in out_v.iter_mut().zip(line_of(a)).zip(line_of(b)) {
+                            *o += w * (x + y);
+                        }
+                    }
+                    (Some(r), None) | (None, Some(r)) => {
+                        for (o, &x) in out_v.iter_mut().zip(line_of(r)) {
+                            *o += w * x;
+                        }
+                    }
+                    (None, None) => {}
+                }
+            }
+            // Horizontal pass through a padded copy of the row.
+            let padded = &mut line[..n_cols + 2 * radius];
+            match boundary {
+                Boundary::Absorbing => {
+                    padded[..radius].fill(0.0);
+                    padded[radius + n_cols..].fill(0.0);
+                    padded[radius..radius + n_cols].copy_from_slice(out_v);
+                }
+                Boundary::Reflecting => {
+                    for (i, p) in padded.iter_mut().enumerate() {
+                        *p = out_v[reflect(i as isize - radius as isize, n_cols)];
+                    }
+                }
+            }
+            let w = taps[radius] * weight;
+            for (o, &s) in out.iter_mut().zip(&padded[radius..radius + n_cols]) {
+                *o += w * s;
+            }
+            for k in 1..=radius {
+                let w = taps[radius + k] * weight;
+                let left = &padded[radius - k..radius - k + n_cols];
+                let right = &padded[radius + k..radius + k + n_cols];
+                for ((o, &x), &y) in out.iter_mut().zip(left).zip(right) {
+                    *o += w * (x + y);
+                }
             }
         }
     }
