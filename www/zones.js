@@ -73,7 +73,12 @@ export class ZonePanel {
   /** Recomputes the timeline: after a run, a new zone or a new terrain. */
   refresh() {
     if (!this.workspace.hasZone()) this.zone = null;
-    this.timeline = this.zone && this.workspace.hasTimeline() ? this.workspace.zoneTimeline() : null;
+    try {
+      this.timeline = this.zone && this.workspace.hasTimeline() ? this.workspace.zoneTimeline() : null;
+    } catch (error) {
+      this.timeline = null;
+      this.showError(error.message ?? String(error));
+    }
     this.render();
     this.map.draw();
   }
@@ -91,7 +96,7 @@ export class ZonePanel {
       : '';
     this.el.hint.textContent = !zone
       ? 'A GeoJSON polygon in the terrain’s CRS, or Shift-drop one on the map. After a run its timeline shows here.'
-      : this.timeline ? 'Cells whose centre lies inside the outline. Share of the zone by stage, %.'
+      : this.timeline ? 'First year at least half the zone is there (+: that stage or later); the table gives each stage’s share of the zone.'
         : 'Run the scenario to see the zone’s timeline.';
     this.el.keys.hidden = !this.timeline;
     this.el.tableBox.hidden = !this.timeline;
