@@ -426,7 +426,8 @@ impl Workspace {
     pub fn export_layer_geotiff(&self, layer: &str, year: i32) -> Result<Vec<u8>, JsError> {
         let (terrain, loaded) = self.run_parts()?;
         let kind = layer_kind(&loaded.timeline, layer).map_err(export_error)?;
-        layer_geotiff(&loaded.timeline, &terrain.dem, &loaded.meta, kind, year).map_err(export_error)
+        layer_geotiff(&loaded.timeline, &terrain.dem, &loaded.meta, kind, year)
+            .map_err(export_error)
     }
 
     /// The file-name stem the command line uses for a layer (e.g. `cover_2` for `cover:2`).
