@@ -519,9 +519,11 @@ impl DispersalOperator {
                 shapes[j - 1].n_rows,
                 2,
                 line,
+                None,
             );
         }
         let base = &shapes[0];
+        let identity = (self.identity_weight > 0.0).then_some((production, self.identity_weight));
         if base.factor == 1 {
             rain.copy_from_slice(&accum[..n]);
         } else {
@@ -534,9 +536,10 @@ impl DispersalOperator {
                 self.n_rows,
                 base.factor,
                 line,
+                identity,
             );
         }
-        if self.identity_weight > 0.0 {
+        if base.factor == 1 && self.identity_weight > 0.0 {
             let w = self.identity_weight;
             for (r, &p) in rain.iter_mut().zip(production) {
                 *r += w * p;
@@ -708,6 +711,8 @@ fn filter(
 
 /// Adds (or with `ASSIGN` writes) the bilinear interpolation of coarse sums, spread over
 /// `factor x factor` fine cells, to `fine`. `row_buf` holds at least `c_cols` values.
+/// With `identity` = (values on the fine grid, weight), each fine row then adds weight x
+/// values while it is in cache.
 #[allow(clippy::too_many_arguments)]
 fn interpolate<const ASSIGN: bool>(
     coarse: &[f32],
@@ -718,6 +723,7 @@ fn interpolate<const ASSIGN: bool>(
     f_rows: usize,
     factor: usize,
     row_buf: &mut [f32],
+    identity: Option<(&[f32], f32)>,
 ) {
     // An axis of one cell (a strip) is not aggregated, so it spreads over one cell.
     let along = |c: usize, f: usize| if c == f { 1 } else { factor };
@@ -750,30 +756,42 @@ fn interpolate<const ASSIGN: bool>(
             for (o, &b) in out.iter_mut().zip(blended.iter()) {
                 *o = if ASSIGN { b } else { *o + b };
             }
-            continue;
-        }
-        if factor_x == 2 && f_cols == 2 * c_cols && c_cols >= 2 {
+        } else if factor_x == 2 && f_cols == 2 * c_cols && c_cols >= 2 {
             spread_pairs::<ASSIGN>(blended, out);
-            continue;
+        } else {
+            spread_blocks::<ASSIGN>(blended, out, factor_x);
         }
-        // Whole coarse cells: the `factor_x` fine cells of coarse cell k blend k with its
-        // left neighbour in their left half and with its right neighbour in the right half.
-        let half = factor_x / 2;
-        let inv = 1.0 / factor_x as f32;
-        for (k, block) in out.chunks_mut(factor_x).enumerate() {
-            let mid = blended[k];
-            let left = blended[k.saturating_sub(1)];
-            let right = blended[(k + 1).min(c_cols - 1)];
-            for (j, o) in block.iter_mut().enumerate() {
-                let v = if j < half {
-                    let w = 0.5 + (j as f32 + 0.5) * inv;
-                    left + w * (mid - left)
-                } else {
-                    let w = (j as f32 + 0.5) * inv - 0.5;
-                    mid + w * (right - mid)
-                };
-                *o = if ASSIGN { v } else { *o + v };
+        if let Some((values, w)) = identity {
+            for (o, &v) in out
+                .iter_mut()
+                .zip(&values[row * f_cols..(row + 1) * f_cols])
+            {
+                *o += w * v;
             }
+        }
+    }
+}
+
+/// The general horizontal spread of [`interpolate`]: `factor_x` fine cells per coarse cell.
+fn spread_blocks<const ASSIGN: bool>(blended: &[f32], out: &mut [f32], factor_x: usize) {
+    let c_cols = blended.len();
+    // Whole coarse cells: the `factor_x` fine cells of coarse cell k blend k with its
+    // left neighbour in their left half and with its right neighbour in the right half.
+    let half = factor_x / 2;
+    let inv = 1.0 / factor_x as f32;
+    for (k, block) in out.chunks_mut(factor_x).enumerate() {
+        let mid = blended[k];
+        let left = blended[k.saturating_sub(1)];
+        let right = blended[(k + 1).min(c_cols - 1)];
+        for (j, o) in block.iter_mut().enumerate() {
+            let v = if j < half {
+                let w = 0.5 + (j as f32 + 0.5) * inv;
+                left + w * (mid - left)
+            } else {
+                let w = (j as f32 + 0.5) * inv - 0.5;
+                mid + w * (right - mid)
+            };
+            *o = if ASSIGN { v } else { *o + v };
         }
     }
 }

@@ -87,23 +87,26 @@ pub struct CellCover {
     pub oldest_tree_age_a: f32,
 }
 
-/// Stage code of an ice-free cell.
+/// Stage code of an ice-free cell: the highest stage whose condition holds. Written as
+/// selects from the lowest stage up, without branches, since it runs once per cell and
+/// year.
 #[inline]
 pub fn stage(cover: &CellCover, t: &StageThresholds32) -> u8 {
     use vegetation_code::*;
-    if cover.tree >= t.mature_tree && cover.oldest_tree_age_a >= t.mature_age {
-        MATURE_FOREST
-    } else if cover.tree >= t.young_tree {
-        YOUNG_FOREST
-    } else if cover.woody >= t.shrub_woody {
-        SHRUBLAND
-    } else if cover.total >= t.meadow_total && cover.graminoid >= t.meadow_graminoid {
-        MEADOW
-    } else if cover.total >= t.pioneer_total {
-        PIONEER
-    } else {
-        BARE
-    }
+    let pick = |holds: bool, code: u8, otherwise: u8| if holds { code } else { otherwise };
+    let code = pick(cover.total >= t.pioneer_total, PIONEER, BARE);
+    let code = pick(
+        (cover.total >= t.meadow_total) & (cover.graminoid >= t.meadow_graminoid),
+        MEADOW,
+        code,
+    );
+    let code = pick(cover.woody >= t.shrub_woody, SHRUBLAND, code);
+    let code = pick(cover.tree >= t.young_tree, YOUNG_FOREST, code);
+    pick(
+        (cover.tree >= t.mature_tree) & (cover.oldest_tree_age_a >= t.mature_age),
+        MATURE_FOREST,
+        code,
+    )
 }
 
 /// The thresholds as `f32` for the yearly loop.
