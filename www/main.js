@@ -160,7 +160,7 @@ async function boot() {
     hoveredHistory = cell && workspace.hasTimeline() ? workspace.cellHistory(cell.col, cell.row) : null;
     showReadout(cell && workspace.hasTerrain() ? workspace.readout(cell.col, cell.row) : null,
       hoveredHistory, currentYear());
-  }, (cell) => selectCell(cell));
+  }, (cell) => (zonePanel?.drawing ? zonePanel.addCorner(cell) : selectCell(cell)));
 
   const areaChart = new LineChart(element('chart-area'), { title: 'Ice area', unit: 'km²', colour: '#2f6db0', decimals: 2 });
   const volumeChart = new LineChart(element('chart-volume'), { title: 'Ice volume', unit: 'km³', colour: '#1b306c', decimals: 3 });
@@ -592,8 +592,11 @@ async function boot() {
 
   zonePanel = new ZonePanel({
     workspace, map, year: currentYear, showError, clearError, dropTarget: element('map-frame'),
+    terrain: () => info,
     elements: {
       open: element('zone-open'), input: element('zone-input'), csv: element('zone-csv'),
+      save: element('zone-save'), draw: element('zone-draw'), finish: element('zone-finish'),
+      cancel: element('zone-cancel'), map: element('map'),
       summary: element('zone-summary'), hint: element('zone-hint'), keys: element('zone-keys'),
       tableBox: element('zone-table-box'), head: element('zone-table-head'), body: element('zone-table-body'),
     },

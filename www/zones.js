@@ -1,21 +1,28 @@
-// The zone panel: a planner's zone (GeoJSON polygons in the terrain's CRS) opened from a file
-// or Shift-dropped on the map, its key years and a table of every tenth year (plus the year
-// on the map) from the engine's zone timeline, the outline on the map, and the CSV download.
+// The zone panel: a planner's zone (GeoJSON polygons in the terrain's CRS) opened from a file,
+// Shift-dropped on the map or drawn on it corner by corner, its key years and a table of every
+// tenth year (plus the year on the map) from the engine's zone timeline, the outline on the
+// map, and downloads of the zone (GeoJSON) and its timeline (CSV).
 
 import { download } from './exports.js';
 
 const ROW_STEP_YEARS = 10;
 const HA_PER_KM2 = 100;
 const isGeoJsonName = (name) => /\.(geo)?json$/i.test(name);
+const DRAWN_NAME = 'drawn_zone.geojson';
 
 export class ZonePanel {
   /**
    * @param {{workspace: object, map: object, elements: Record<string, HTMLElement>,
    *   year: () => number | null, showError: (message: string) => void,
-   *   clearError: () => void, dropTarget: HTMLElement}} options
+   *   clearError: () => void, dropTarget: HTMLElement,
+   *   terrain: () => ({west_m: number, north_m: number, cell_size_m: number} | null)}} options
    */
-  constructor({ workspace, map, elements, year, showError, clearError, dropTarget }) {
+  constructor({ workspace, map, elements, year, showError, clearError, dropTarget, terrain }) {
     this.workspace = workspace;
+    this.terrain = terrain;
+    this.text = null;
+    // Corners of a zone being drawn, in grid cells from the north-west corner; null when not.
+    this.corners = null;
     this.map = map;
     this.el = elements;
     this.year = year;
@@ -31,6 +38,13 @@ export class ZonePanel {
       if (file) this.open(file);
     });
     this.el.csv.addEventListener('click', () => this.downloadCsv());
+    this.el.save.addEventListener('click', () => this.text && download([this.text], this.zone.name, 'application/geo+json'));
+    this.el.draw.addEventListener('click', () => this.startDrawing());
+    this.el.finish.addEventListener('click', () => this.finishDrawing());
+    this.el.cancel.addEventListener('click', () => this.stopDrawing());
+    document.addEventListener('keydown', (event) => {
+      if (event.key === 'Escape' && this.corners) this.stopDrawing();
+    });
     // Seen before the map's own drop handler hands the files on (see claimsDrop).
     dropTarget.addEventListener('drop', (event) => { this.shiftDrop = event.shiftKey; }, true);
     map.setOverlay((ctx, view) => this.drawOutline(ctx, view));
@@ -54,20 +68,63 @@ export class ZonePanel {
       this.showError(`${file.name}: could not be read (${error.message}).`);
       return;
     }
+    this.load(text, file.name);
+  }
+
+  load(text, name) {
     if (!this.workspace.hasTerrain()) {
-      this.showError(`${file.name}: open the terrain first; a zone is laid on its cells.`);
-      return;
+      this.showError(`${name}: open the terrain first; a zone is laid on its cells.`);
+      return false;
     }
     try {
       // On error the engine keeps the zone it had.
-      this.zone = this.workspace.loadZone(text, file.name);
+      this.zone = this.workspace.loadZone(text, name);
     } catch (error) {
       this.showError(error.message ?? String(error));
-      return;
+      return false;
     }
+    this.text = text;
     this.clearError();
     this.refresh();
     document.body.dataset.zones = String(Number(document.body.dataset.zones ?? 0) + 1);
+    return true;
+  }
+
+  /** True while corners are being placed: map clicks (and Enter under the cross) add one. */
+  get drawing() {
+    return this.corners !== null;
+  }
+
+  startDrawing() {
+    if (!this.workspace.hasTerrain()) return;
+    this.corners = [];
+    this.render();
+    this.map.draw();
+  }
+
+  /** A corner at the centre of the clicked cell. */
+  addCorner(cell) {
+    this.corners.push([cell.col + 0.5, cell.row + 0.5]);
+    this.render();
+    this.map.draw();
+  }
+
+  stopDrawing() {
+    this.corners = null;
+    this.render();
+    this.map.draw();
+  }
+
+  /** The drawn corners as a GeoJSON polygon in the terrain's CRS, loaded like a file. */
+  finishDrawing() {
+    const g = this.terrain();
+    if (!this.corners || this.corners.length < 3 || !g) return;
+    const ring = this.corners.map(([x, y]) => [g.west_m + x * g.cell_size_m, g.north_m - y * g.cell_size_m]);
+    ring.push(ring[0]);
+    const text = JSON.stringify({ type: 'FeatureCollection', features: [{ type: 'Feature',
+      properties: { drawn: 'on the map, corners at cell centres' },
+      geometry: { type: 'Polygon', coordinates: [ring] } }] });
+    if (this.load(text, DRAWN_NAME)) this.stopDrawing();
   }
 
   /** Recomputes the timeline: after a run, a new zone or a new terrain. */
@@ -90,12 +147,21 @@ export class ZonePanel {
 
   render() {
     const zone = this.zone;
+    const drawing = this.drawing;
     this.el.csv.disabled = !this.timeline;
+    this.el.save.disabled = !zone || !this.text;
+    this.el.draw.hidden = drawing;
+    this.el.finish.hidden = !drawing;
+    this.el.cancel.hidden = !drawing;
+    this.el.finish.disabled = !drawing || this.corners.length < 3;
+    this.el.map.classList.toggle('zone-drawing', drawing);
     this.el.summary.textContent = zone
       ? `${zone.name}: ${zone.n_cells.toLocaleString('en-GB')} cells, ${(zone.area_km2 * HA_PER_KM2).toFixed(1)} ha`
       : '';
-    this.el.hint.textContent = !zone
-      ? 'A GeoJSON polygon in the terrain’s CRS, or Shift-drop one on the map. After a run its timeline shows here.'
+    const n = drawing ? this.corners.length : 0;
+    this.el.hint.textContent = drawing
+      ? `Click the map (or press Enter under the cross) at each corner: ${n} so far${n < 3 ? ', three at least' : ''}. Esc cancels.`
+      : !zone ? 'Draw one on the map, or open a GeoJSON polygon in the terrain’s CRS (or Shift-drop it on the map). After a run its timeline shows here.'
       : this.timeline ? 'First year at least half the zone is there (+: that stage or later); the table gives each stage’s share of the zone.'
         : 'Run the scenario to see the zone’s timeline.';
     this.el.keys.hidden = !this.timeline;
@@ -191,6 +257,7 @@ export class ZonePanel {
 
   /** The zone's polygons over the map: a light fill and a dark-and-light outline. */
   drawOutline(ctx, view) {
+    if (this.corners) this.drawCorners(ctx, view);
     if (!this.zone || !this.workspace.hasZone()) return;
     ctx.beginPath();
     for (const ring of this.zone.rings) {
@@ -207,6 +274,29 @@ export class ZonePanel {
     for (const [colour, width] of [['rgba(255,255,255,0.9)', 3.5], ['#b0521d', 1.5]]) {
       ctx.strokeStyle = colour;
       ctx.lineWidth = width;
+      ctx.stroke();
+    }
+  }
+
+  /** The corners placed so far, joined in order, with a dot at each. */
+  drawCorners(ctx, view) {
+    const points = this.corners.map(([x, y]) => [view.offsetX + x * view.scale, view.offsetY + y * view.scale]);
+    ctx.beginPath();
+    points.forEach(([x, y], i) => (i === 0 ? ctx.moveTo(x, y) : ctx.lineTo(x, y)));
+    for (const [colour, width] of [['rgba(255,255,255,0.9)', 3.5], ['#1d2a30', 1.5]]) {
+      ctx.strokeStyle = colour;
+      ctx.lineWidth = width;
+      ctx.setLineDash(colour === '#1d2a30' ? [5, 4] : []);
+      ctx.stroke();
+    }
+    ctx.setLineDash([]);
+    for (const [x, y] of points) {
+      ctx.beginPath();
+      ctx.arc(x, y, 4, 0, 2 * Math.PI);
+      ctx.fillStyle = '#b0521d';
+      ctx.fill();
+      ctx.strokeStyle = '#fff';
+      ctx.lineWidth = 1.5;
       ctx.stroke();
     }
   }

@@ -3,8 +3,9 @@
 // and the zone table is checked against the cells' own histories (window.forefield.cellHistory,
 // the cell-history path, not the zone code); the zone CSV download is read with csv-parse
 // (RFC 4180) and must be byte-identical to `forefield export --zone` for the same run. A zone
-// in degrees is refused by name and the zone before stays; Shift-drop opens a zone while a
-// plain drop still takes a glacier outline.
+// in degrees is refused by name and the zone before stays; a zone drawn on the map counts the
+// cells its corners enclose and its saved GeoJSON gives the command line the same table;
+// Shift-drop opens a zone while a plain drop still takes a glacier outline.
 
 import { after, before, describe, test } from 'node:test';
 import assert from 'node:assert/strict';
@@ -26,6 +27,7 @@ const ZONE = { c0: 180, c1: 220, r0: 130, r1: 170 };
 let info;
 let dir;
 let zonePath;
+let runDir;
 
 /** A GeoJSON rectangle along cell edges, in the terrain's CRS. */
 function rectangle({ c0, c1, r0, r1 }) {
@@ -154,6 +156,7 @@ describe('a zone from GeoJSON', () => {
     };
     writeFileSync(join(dir, 'scenario.json'), JSON.stringify(scenario));
     const out = join(dir, 'out');
+    runDir = out;
     execFileSync(CLI, ['run', join(dir, 'scenario.json'), '--out', out,
       '--vegetation', join(SAMPLE, 'valley_vegetation.tif'), '--formats', 'csv', '--years', 'start'], { stdio: 'pipe' });
     execFileSync(CLI, ['export', out, '--formats', '', '--zone', zonePath], { stdio: 'pipe' });
@@ -174,6 +177,45 @@ describe('a zone from GeoJSON', () => {
     const after = await page.evaluate(() => window.forefield.zoneTimeline());
     assert.equal(after.name, 'tongue.geojson');
     assert.deepEqual(after.ice_area_km2, before.ice_area_km2);
+  });
+
+  test('a zone drawn on the map holds the cells its corners enclose, and its GeoJSON gives the command line the same table', async () => {
+    const { page } = session;
+    await page.click('#zone-draw');
+    assert.equal(await page.locator('#zone-finish').isDisabled(), true, 'three corners at least');
+    // Corners at the centres of these cells: the polygon's edges run through cell centres,
+    // so by the half-open centre rule it takes columns 190-209 and rows 136-160.
+    const corners = [[190, 135], [210, 135], [210, 160], [190, 160]];
+    for (const [col, row] of corners) {
+      const point = await page.evaluate(([c, r]) => window.forefield.cellCentreOnPage(c, r), [col, row]);
+      await page.mouse.click(point.x, point.y);
+    }
+    assert.match(await page.locator('#zone-hint').innerText(), /4 so far/);
+    await page.screenshot({ path: join(ARTIFACTS, 'zones-drawing.png') });
+    assert.equal(await page.locator('#history').isHidden(), true, 'corners do not pick a cell');
+    await page.click('#zone-finish');
+    await page.locator('#zone-summary').filter({ hasText: 'drawn_zone.geojson' }).waitFor();
+    assert.match(await page.locator('#zone-summary').innerText(), /^drawn_zone\.geojson: 500 cells, 31\.3 ha$/);
+    assert.equal(await page.locator('#zone-draw').isVisible(), true);
+    const save = async (id) => {
+      const [download] = await Promise.all([page.waitForEvent('download'), page.click(id)]);
+      const path = join(dir, download.suggestedFilename());
+      await download.saveAs(path);
+      return path;
+    };
+    const geojsonPath = await save('#zone-save');
+    assert.ok(geojsonPath.endsWith('drawn_zone.geojson'));
+    const csvPath = await save('#zone-csv');
+    assert.ok(csvPath.endsWith('zone_drawn_zone_timeline.csv'));
+    const cliDir = join(dir, 'cli');
+    execFileSync(CLI, ['export', runDir, '--out', cliDir, '--formats', '', '--zone', geojsonPath], { stdio: 'pipe' });
+    assert.ok(readFileSync(csvPath).equals(readFileSync(join(cliDir, 'zone_drawn_zone_timeline.csv'))),
+      'the drawn zone\'s table from the page and from the command line should be the same bytes');
+    // Escape leaves drawing without changing the zone.
+    await page.click('#zone-draw');
+    await page.keyboard.press('Escape');
+    assert.equal(await page.locator('#zone-finish').isHidden(), true);
+    assert.match(await page.locator('#zone-summary').innerText(), /^drawn_zone\.geojson:/);
   });
 
   test('Shift-drop on the map opens a zone; a plain drop still takes a glacier outline', async () => {
