@@ -190,7 +190,9 @@ async function boot() {
       ice_thickness: `Ice thickness in ${currentYear()} over shaded relief`,
       exposure_year: `Year each cell became ice-free, as of ${currentYear()}`,
       stage: `Succession stage in ${currentYear()}`,
-      soil: `Soil development index in ${currentYear()}` }[layer]
+      soil: `Soil development index in ${currentYear()}`,
+      lakes: `New lakes (potential) by depth in ${currentYear()}; a planning indication, not a hazard assessment`,
+      steep_bare: `Steep bare ground in ${currentYear()}; a planning indication, not a hazard assessment` }[layer]
       ?? `Cover of ${typeName} in ${currentYear()}`;
     element('map').setAttribute('aria-label', label);
     document.body.dataset.drawn = `${layer}:${currentYear() ?? ''}`;
@@ -431,7 +433,7 @@ async function boot() {
         option.textContent = `Cover: ${name}`;
         return option;
       }));
-      const plantLayer = (value) => value === 'stage' || value === 'soil' || value.startsWith('cover:');
+      const plantLayer = (value) => ['stage', 'soil', 'steep_bare'].includes(value) || value.startsWith('cover:');
       for (const option of element('layer').options) option.disabled = names.length === 0 && plantLayer(option.value);
       if (layer === 'terrain' || !element('layer').querySelector(`option[value="${layer}"]:not([disabled])`)) {
         layer = 'ice_thickness';

@@ -493,9 +493,9 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
             ],
             note: format!(
                 "{ANALYSIS_CAUTION} Depressions of the bed at least {} m deep and {} km2 \
-                 on ground the run had under ice, filled to their spill level, shown once they and their shore are ice-free; \
-                 lakes under or against ice, dam breaches and sediment infill are not \
-                 modelled. {:.0} m and deeper in the darkest blue.",
+                 where the run had ice, filled to their spill level; shown once they and their \
+                 shore are ice-free. Lakes under or against ice, dam breaches and infill are \
+                 not modelled. Darkest blue: {:.0} m or deeper.",
                 crate::lakes::MIN_LAKE_DEPTH_M,
                 crate::lakes::MIN_LAKE_AREA_M2 / 1e6,
                 LAKE_DEPTH_SCALE_M
@@ -516,8 +516,8 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
                 class("other ground", PALE_GREY),
             ],
             note: format!(
-                "{ANALYSIS_CAUTION} Slope of the bed by Horn's method on the grid's cells, \
-                 so narrower steep steps do not show."
+                "{ANALYSIS_CAUTION} Slope of the bed by Horn's method, averaged over the \
+                 grid's cells: narrower steep steps do not show."
             ),
         },
     }
