@@ -130,14 +130,24 @@ export class ZonePanel {
   /** Recomputes the timeline: after a run, a new zone or a new terrain. */
   refresh() {
     if (!this.workspace.hasZone()) this.zone = null;
-    try {
-      this.timeline = this.zone && this.workspace.hasTimeline() ? this.workspace.zoneTimeline() : null;
-    } catch (error) {
-      this.timeline = null;
-      this.showError(error.message ?? String(error));
-    }
+    this.timeline = null;
+    this.pending = Boolean(this.zone && this.workspace.hasTimeline());
     this.render();
     this.map.draw();
+    if (!this.pending) return;
+    // A zone on a million-cell grid takes about a second: let the page show the run's end
+    // (or the new zone) first. A later refresh supersedes this one.
+    const token = (this.token = (this.token ?? 0) + 1);
+    setTimeout(() => {
+      if (token !== this.token) return;
+      this.pending = false;
+      try {
+        this.timeline = this.workspace.zoneTimeline();
+      } catch (error) {
+        this.showError(error.message ?? String(error));
+      }
+      this.render();
+    }, 0);
   }
 
   /** The year on the map changed: only the highlighted row moves. */
@@ -162,6 +172,7 @@ export class ZonePanel {
     this.el.hint.textContent = drawing
       ? `Click the map (or press Enter under the cross) at each corner: ${n} so far${n < 3 ? ', three at least' : ''}. Esc cancels.`
       : !zone ? 'Draw one on the map, or open a GeoJSON polygon in the terrain’s CRS (or Shift-drop it on the map). After a run its timeline shows here.'
+      : this.pending ? 'Reading the zone through the run…'
       : this.timeline ? 'First year at least half the zone is there (+: that stage or later); the table gives each stage’s share of the zone.'
         : 'Run the scenario to see the zone’s timeline.';
     this.el.keys.hidden = !this.timeline;
