@@ -23,6 +23,9 @@ export class ZonePanel {
     this.text = null;
     // Corners of a zone being drawn, in grid cells from the north-west corner; null when not.
     this.corners = null;
+    // A zone timeline waiting to be computed, and the refresh it belongs to.
+    this.pending = false;
+    this.token = 0;
     this.map = map;
     this.el = elements;
     this.year = year;
@@ -137,7 +140,7 @@ export class ZonePanel {
     if (!this.pending) return;
     // A zone on a million-cell grid takes about a second: let the page show the run's end
     // (or the new zone) first. A later refresh supersedes this one.
-    const token = (this.token = (this.token ?? 0) + 1);
+    const token = ++this.token;
     setTimeout(() => {
       if (token !== this.token) return;
       this.pending = false;
