@@ -96,7 +96,11 @@ pub fn fill_depressions(bed: &Grid) -> Vec<f32> {
 
 /// Fill depth per cell, m: filled level minus bed (0 where water drains and at nodata).
 pub fn fill_depth_m(bed: &Grid) -> Vec<f32> {
-    fill_depressions(bed)
+    depth_from_filled(bed, &fill_depressions(bed))
+}
+
+fn depth_from_filled(bed: &Grid, filled: &[f32]) -> Vec<f32> {
+    filled
         .iter()
         .zip(&bed.values)
         .zip(&bed.nodata)
@@ -142,7 +146,7 @@ impl LakeMap {
     pub fn from_bed_with(bed: &Grid, min_depth_m: f32, min_area_m2: f64) -> LakeMap {
         let (n_cols, n_rows) = (bed.n_cols(), bed.n_rows());
         let filled = fill_depressions(bed);
-        let raw_depth = fill_depth_m(bed);
+        let raw_depth = depth_from_filled(bed, &filled);
         let cell_area_m2 = bed.geometry.cell_area_m2();
         let mut depth_m = vec![0.0_f32; raw_depth.len()];
         let mut seen = vec![false; raw_depth.len()];
