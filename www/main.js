@@ -195,6 +195,9 @@ async function boot() {
       steep_bare: `Steep bare ground in ${currentYear()}; a planning indication, not a hazard assessment` }[layer]
       ?? `Cover of ${typeName} in ${currentYear()}`;
     element('map').setAttribute('aria-label', label);
+    const lakeArea = layer === 'lakes' ? timelineInfo.lake_area_km2[currentYear() - timelineInfo.start_year] : null;
+    element('lake-area').hidden = lakeArea == null;
+    element('lake-area').textContent = `New lakes free of ice in ${currentYear()}: ${formatNumber(lakeArea ?? 0, 2)} km²`;
     document.body.dataset.drawn = `${layer}:${currentYear() ?? ''}`;
   }
 

@@ -141,6 +141,12 @@ describe('new lakes and steep bare ground', () => {
     const deepestIce = startIce[[...cells].indexOf(deepest)];
     assert.ok(deepestIce > 50, `${deepestIce} m of ice over the deepest cell at the start`);
     assert.ok(cells.size * info.cell_size_m ** 2 > 1e5, `${cells.size} cells`);
+    // The page's yearly lake area is the file's lake cells.
+    const areaText = await page.locator('#lake-area').innerText();
+    assert.match(areaText, new RegExp(`in ${lastYear}: `));
+    const fileArea = depth.filter((d) => d > 0).length * info.cell_size_m ** 2 / 1e6;
+    assert.ok(Math.abs(Number(areaText.split(': ')[1].replace(/[^\d.]/g, '')) - fileArea) < 0.006,
+      `${areaText}; the file has ${fileArea} km2`);
     lake = { col: deepest % nc, row: Math.floor(deepest / nc), depth: depth[deepest], cells: [...cells] };
   });
 

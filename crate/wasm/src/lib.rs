@@ -89,6 +89,8 @@ struct TimelineInfo {
     /// Years between stage keyframes and between cover keyframes (runs with plants).
     stage_keyframe_interval: Option<u32>,
     cover_keyframe_interval: Option<u32>,
+    /// Area of the new lakes ice-free at the end of each year, start first, km2.
+    lake_area_km2: Vec<f64>,
 }
 
 /// One cell through the recorded years.
@@ -392,6 +394,11 @@ impl Workspace {
             type_names: timeline.type_names().to_vec(),
             stage_keyframe_interval: timeline.plant_intervals().map(|i| i.0),
             cover_keyframe_interval: timeline.plant_intervals().map(|i| i.1),
+            lake_area_km2: renderer.lake_map().map_or_else(Vec::new, |lakes| {
+                (timeline.start_year()..=timeline.last_year())
+                    .map(|year| lakes.ice_free_area_m2(&timeline, year) / 1e6)
+                    .collect()
+            }),
         };
         self.timeline = Some(LoadedTimeline {
             timeline,
