@@ -509,7 +509,7 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
             stops: Vec::new(),
             classes: vec![
                 class(
-                    &format!("steeper than {STEEP_SLOPE_DEG:.0} degrees, bare or pioneer"),
+                    &format!("{STEEP_SLOPE_DEG:.0} degrees or steeper, bare or pioneer"),
                     STEEP_BARE,
                 ),
                 class("ice", ICE_FLAT),
