@@ -33,7 +33,8 @@ pub const FORMATS: [&str; 4] = ["png", "tif", "csv", "geojson"];
 
 pub const EXPORT_OPTIONS: &str = "\
     --years Y,Y,...     years to export, or `last` (default), `start`, `all`
-    --layers L,L,...    ice_thickness, exposure_year, stage, cover:N, soil, or `all`
+    --layers L,L,...    ice_thickness, exposure_year, stage, cover:N, soil, lakes,
+                        steep_bare, or `all`
                         (default ice_thickness, and stage for runs with plants)
     --formats F,F,...   png, tif, csv, geojson (default all four)
     --cell COL,ROW      also write this cell's history as CSV (repeat for several cells)
@@ -102,11 +103,16 @@ impl ExportRequest {
 
     fn layers(&self, timeline: &Timeline) -> Result<Vec<LayerKind>> {
         let all: Vec<String> = {
-            let mut names = vec!["ice_thickness".to_string(), "exposure_year".to_string()];
+            let mut names = vec![
+                "ice_thickness".to_string(),
+                "exposure_year".to_string(),
+                "lakes".to_string(),
+            ];
             if timeline.has_plants() {
                 names.push("stage".into());
                 names.extend((0..timeline.type_names().len()).map(|t| format!("cover:{t}")));
                 names.push("soil".into());
+                names.push("steep_bare".into());
             }
             names
         };
