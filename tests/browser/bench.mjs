@@ -1,6 +1,7 @@
 // The wasm side of `./build.sh bench`: the same 200-year ice run and coupled ice and
 // vegetation run as `forefield bench`, inside headless Debian Chromium, printed as JSON
-// lines; with NATIVE_BENCH (the native JSON lines) set, also the wasm/native ratios. Medians over repeats, since shared machines are noisy.
+// lines, plus the slider scrub and the Export panel's exports on the large valley; with
+// NATIVE_BENCH (the native JSON lines) set, also the wasm/native ratios. Medians over repeats, since shared machines are noisy.
 
 import { chromium } from 'playwright-core';
 
@@ -146,7 +147,7 @@ try {
       return timeline.start_year + (state % span);
     });
     const result = {};
-    for (const layer of ['ice_thickness', 'exposure_year', 'stage']) {
+    for (const layer of ['ice_thickness', 'exposure_year', 'stage', 'lakes', 'steep_bare']) {
       // One untimed draw first, as the page has always drawn a layer once before a scrub.
       workspace.renderLayer(layer, timeline.last_year);
       const ms = [];
@@ -163,8 +164,33 @@ try {
       renderMs.sort((a, b) => a - b);
       result[layer] = { median: ms[50], worst: ms[99], engineMedian: renderMs[50] };
     }
+    // Exports of the last year as the Export panel makes them: the cells table in chunks of
+    // 16,384 rows (the longest chunk is what the page's thread is held for), the PNG snapshot
+    // and the stage polygons.
+    const exportsMs = {};
+    let started = performance.now();
+    workspace.startCellsCsv(timeline.last_year);
+    let chunkWorst = 0;
+    let csvBytes = 0;
+    for (;;) {
+      const chunkStarted = performance.now();
+      const chunk = workspace.nextCellsCsvChunk(16384);
+      chunkWorst = Math.max(chunkWorst, performance.now() - chunkStarted);
+      if (chunk === undefined) break;
+      csvBytes += chunk.length;
+    }
+    exportsMs.cellsCsv = performance.now() - started;
+    started = performance.now();
+    const png = workspace.exportSnapshot('stage', timeline.last_year);
+    exportsMs.snapshot = performance.now() - started;
+    started = performance.now();
+    const geojson = workspace.exportStagePolygons(timeline.last_year);
+    exportsMs.stagePolygons = performance.now() - started;
     workspace.free();
-    return { cells: terrain.n_cols * terrain.n_rows, timeline, result };
+    return {
+      cells: terrain.n_cols * terrain.n_rows, timeline, result,
+      exports: { ...exportsMs, chunkWorst, csvBytes, pngBytes: png.length, geojsonBytes: geojson.length },
+    };
   }, { scenario: SCENARIO_JSON });
   console.log(JSON.stringify({
     bench: 'slider_scrub',
@@ -186,6 +212,24 @@ try {
     timeline_cover_keyframe_interval_years: scrub.timeline.cover_keyframe_interval,
     timeline_mib: Number((scrub.timeline.memory_bytes / 2 ** 20).toFixed(2)),
     timeline_plant_mib: Number((scrub.timeline.plant_memory_bytes / 2 ** 20).toFixed(2)),
+    lakes_ms_median: Number(scrub.result.lakes.median.toFixed(2)),
+    lakes_ms_worst: Number(scrub.result.lakes.worst.toFixed(2)),
+    steep_bare_ms_median: Number(scrub.result.steep_bare.median.toFixed(2)),
+    steep_bare_ms_worst: Number(scrub.result.steep_bare.worst.toFixed(2)),
+  }));
+  const e = scrub.exports;
+  console.log(JSON.stringify({
+    bench: 'exports',
+    side: 'wasm',
+    cells: scrub.cells,
+    cells_csv_seconds: Number((e.cellsCsv / 1000).toFixed(3)),
+    cells_csv_mb: Number((e.csvBytes / 1e6).toFixed(1)),
+    cells_csv_chunk_rows: 16384,
+    cells_csv_chunk_ms_worst: Number(e.chunkWorst.toFixed(1)),
+    snapshot_png_seconds: Number((e.snapshot / 1000).toFixed(3)),
+    snapshot_png_kb: Math.round(e.pngBytes / 1e3),
+    stage_geojson_seconds: Number((e.stagePolygons / 1000).toFixed(3)),
+    stage_geojson_kb: Math.round(e.geojsonBytes / 1e3),
   }));
 } finally {
   await browser.close();
