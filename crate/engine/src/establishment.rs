@@ -131,6 +131,50 @@ pub fn update_cover(
     seeds: f32,
     uniform: f32,
 ) -> f32 {
+    let step = grow_and_infill(rates, cover, suitability, canopy, seeds);
+    // First establishment: at least one recruit, probability 1 - exp(-expected).
+    let first = if uniform < establishment_probability(step.expected_recruits) {
+        smaller(rates.recruit_cover, step.free)
+    } else {
+        0.0
+    };
+    let c = if cover > 0.0 { step.kept } else { first };
+    smaller(positive(c), step.space)
+}
+
+/// [`update_cover`] where the type is already present (`cover > 0`): the same numbers,
+/// without the establishment draw, which only an empty cell uses.
+#[inline]
+pub fn update_established_cover(
+    rates: &TypeRates,
+    cover: f32,
+    suitability: f32,
+    canopy: f32,
+    seeds: f32,
+) -> f32 {
+    let step = grow_and_infill(rates, cover, suitability, canopy, seeds);
+    smaller(positive(step.kept), step.space)
+}
+
+/// The part of a cell's year shared by [`update_cover`] and [`update_established_cover`].
+struct Step {
+    /// Cover after growth, mortality and infill, where the type is present.
+    kept: f32,
+    /// Suitable space left for recruits.
+    free: f32,
+    expected_recruits: f32,
+    /// Space the taller types leave.
+    space: f32,
+}
+
+#[inline]
+fn grow_and_infill(
+    rates: &TypeRates,
+    cover: f32,
+    suitability: f32,
+    canopy: f32,
+    seeds: f32,
+) -> Step {
     let space = positive(1.0 - canopy);
     let light = 1.0 - (1.0 - rates.shade_tolerance) * canopy;
     let capacity = rates.max_cover * suitability;
@@ -147,14 +191,12 @@ pub fn update_cover(
             smaller(positive(expected_recruits), 1.0),
             free / rates.recruit_cover,
         );
-    // First establishment: at least one recruit, probability 1 - exp(-expected).
-    let first = if uniform < establishment_probability(expected_recruits) {
-        smaller(rates.recruit_cover, free)
-    } else {
-        0.0
-    };
-    let c = if c > 0.0 { grown + infill } else { first };
-    smaller(positive(c), space)
+    Step {
+        kept: grown + infill,
+        free,
+        expected_recruits,
+        space,
+    }
 }
 
 /// `a` if positive, else 0 (a comparison, not `f32::max`, so that it vectorises on wasm).

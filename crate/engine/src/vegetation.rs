@@ -21,7 +21,8 @@ use crate::dispersal::{
 };
 use crate::disturbance::{Disturbance, DisturbanceKind, ScheduledDisturbance, SeedBankParams};
 use crate::establishment::{
-    larger, smaller, suitability, update_cover, GrowingSeasonParams, TypeRates,
+    larger, smaller, suitability, update_cover, update_established_cover, GrowingSeasonParams,
+    TypeRates,
 };
 use crate::exposure::ICE_COVER_THRESHOLD_M;
 use crate::grid::GridGeometry;
@@ -260,6 +261,10 @@ pub struct VegetationModel {
     chunk_max_soil: Vec<f32>,
     /// Per type and chunk (type-major): whether the type had cover there last year.
     chunk_occupied: Vec<bool>,
+    /// Per type and chunk: whether the type had cover in every cell there last year.
+    chunk_established: Vec<bool>,
+    /// Per chunk and year: whether every cell is open (neither fresh nor closed).
+    chunk_open: Vec<bool>,
 }
 
 /// Cells per block of the yearly update.
@@ -469,6 +474,8 @@ impl VegetationModel {
             chunk_min_slope_deg: Vec::new(),
             chunk_max_soil: vec![0.0; n.div_ceil(CHUNK)],
             chunk_occupied: Vec::new(),
+            chunk_established: Vec::new(),
+            chunk_open: vec![false; n.div_ceil(CHUNK)],
         };
         model.chunk_max_temp_c = model.temp_base_c.chunks(CHUNK).map(chunk_max).collect();
         model.chunk_min_slope_deg = model
@@ -479,6 +486,10 @@ impl VegetationModel {
         model.chunk_occupied = (0..n_types)
             .flat_map(|t| model.state.cover[t * n..(t + 1) * n].chunks(CHUNK))
             .map(|chunk| chunk.iter().any(|&c| c > 0.0))
+            .collect();
+        model.chunk_established = (0..n_types)
+            .flat_map(|t| model.state.cover[t * n..(t + 1) * n].chunks(CHUNK))
+            .map(all_positive)
             .collect();
         for i in 0..n {
             if model.state.stage[i] != vegetation_code::ICE {
@@ -707,6 +718,9 @@ impl VegetationModel {
         for (max, chunk) in self.chunk_max_soil.iter_mut().zip(bound.chunks(CHUNK)) {
             *max = chunk_max(chunk);
         }
+        for (open, kinds) in self.chunk_open.iter_mut().zip(self.cell_kind.chunks(CHUNK)) {
+            *open = kinds.iter().fold(true, |all, &k| all & (k == CELL_OPEN));
+        }
     }
 
     /// One year of every type in the cells of `cells`, tallest first, each under the
@@ -742,33 +756,50 @@ impl VegetationModel {
             let key = draw_key(self.establishment_key, year, t);
             let n_chunks = n.div_ceil(CHUNK);
             let first_chunk = cells.start / CHUNK;
-            let mut skip_flags = [false; BLOCK / CHUNK];
-            for (k, flag) in skip_flags
+            // Per chunk: skipped, updated in full, or updated without establishment draws
+            // (the type is in every cell and every cell is open, so no draw is used).
+            const SKIP: u8 = 0;
+            const FULL: u8 = 1;
+            const ESTABLISHED: u8 = 2;
+            let mut kinds = [SKIP; BLOCK / CHUNK];
+            for (k, kind) in kinds
                 .iter_mut()
                 .enumerate()
                 .take(cells.len().div_ceil(CHUNK))
             {
                 let chunk = first_chunk + k;
-                *flag = !self.chunk_occupied[t * n_chunks + chunk]
-                    && (self.chunk_max_temp_c[chunk] + anomaly_c < rates.min_temp_c
-                        || self.chunk_max_soil[chunk] < rates.min_soil
-                        || self.chunk_min_slope_deg[chunk] > rates.max_slope_deg);
+                let barren = self.chunk_max_temp_c[chunk] + anomaly_c < rates.min_temp_c
+                    || self.chunk_max_soil[chunk] < rates.min_soil
+                    || self.chunk_min_slope_deg[chunk] > rates.max_slope_deg;
+                *kind = if !self.chunk_occupied[t * n_chunks + chunk] && barren {
+                    SKIP
+                } else if self.chunk_established[t * n_chunks + chunk] && self.chunk_open[chunk] {
+                    ESTABLISHED
+                } else {
+                    FULL
+                };
             }
-            let skip = |chunk: usize| skip_flags[chunk - first_chunk];
+            let kind_of = |chunk: usize| kinds[chunk - first_chunk];
             let mut start = cells.start;
             while start < cells.end {
-                if skip(start / CHUNK) {
+                let kind = kind_of(start / CHUNK);
+                if kind == SKIP {
                     start = (start + CHUNK).min(cells.end);
                     continue;
                 }
-                // One call over the whole run of chunks that need an update.
+                // One call over the whole run of chunks of the same kind.
                 let mut end = (start + CHUNK).min(cells.end);
-                while end < cells.end && !skip(end / CHUNK) {
+                while end < cells.end && kind_of(end / CHUNK) == kind {
                     end = (end + CHUNK).min(cells.end);
                 }
                 let local = start - cells.start..end - cells.start;
                 let layer = t * n + start..t * n + end;
-                grow_cells(
+                let grow = if kind == ESTABLISHED {
+                    grow_cells::<true>
+                } else {
+                    grow_cells::<false>
+                };
+                grow(
                     rates,
                     form_weights,
                     key,
@@ -793,7 +824,9 @@ impl VegetationModel {
                 );
                 for (k, chunk_cells) in self.state.cover[layer].chunks(CHUNK).enumerate() {
                     let chunk_cover = lane_sum(chunk_cells);
-                    self.chunk_occupied[t * n_chunks + start / CHUNK + k] = chunk_cover > 0.0;
+                    let chunk = t * n_chunks + start / CHUNK + k;
+                    self.chunk_occupied[chunk] = chunk_cover > 0.0;
+                    self.chunk_established[chunk] = all_positive(chunk_cells);
                     cover_sums[t] += chunk_cover;
                 }
                 start = end;
@@ -842,6 +875,7 @@ impl VegetationModel {
                     }
                     self.state.cover[t * n + i] = 0.0;
                     self.state.age_a[t * n + i] = 0.0;
+                    self.chunk_established[t * n.div_ceil(CHUNK) + i / CHUNK] = false;
                 }
                 if scheduled.event.kind == DisturbanceKind::DebrisFlow {
                     self.state.soil[i] = 0.0;
@@ -987,7 +1021,7 @@ struct FormSums<'a> {
 /// The cell loop of one type in [`VegetationModel::update_block`], over slices of one length so that the
 /// compiler drops bounds checks.
 #[allow(clippy::too_many_arguments)]
-fn grow_cells(
+fn grow_cells<const ESTABLISHED: bool>(
     rates: &TypeRates,
     [is_graminoid, is_woody, is_tree]: [f32; 3],
     key: u32,
@@ -1022,8 +1056,12 @@ fn grow_cells(
         let c0 = if kind == CELL_OPEN { last_cover } else { 0.0 };
         let age0 = if kind == CELL_OPEN { last_age } else { 0.0 };
         let under = canopy[i];
-        let uniform = hash_uniform(key ^ (first_cell + i as u32));
-        let c = update_cover(rates, c0, suit, under, rain[i], uniform);
+        let c = if ESTABLISHED {
+            update_established_cover(rates, c0, suit, under, rain[i])
+        } else {
+            let uniform = hash_uniform(key ^ (first_cell + i as u32));
+            update_cover(rates, c0, suit, under, rain[i], uniform)
+        };
         let gone = c < EXTINCT_COVER;
         let c = if gone { 0.0 } else { c };
         let age = if gone {
@@ -1077,6 +1115,11 @@ fn chunk_max(values: &[f32]) -> f32 {
         .iter()
         .fold(f32::NEG_INFINITY, |a, &v| larger(a, v));
     lanes.iter().fold(rest, |a, &v| larger(a, v))
+}
+
+/// Whether every value of a chunk is above zero.
+fn all_positive(values: &[f32]) -> bool {
+    values.iter().fold(true, |all, &v| all & (v > 0.0))
 }
 
 /// Largest negated value of a chunk: minus its smallest value.
