@@ -28,7 +28,10 @@ USAGE:
                                               timeline and exports (default DIR out; `run --help`)
     forefield export RUN_DIR [--years ...]    write snapshots, CSV, GeoTIFF and GeoJSON of any year
                                               and layer from a finished run (`export --help`)
-    forefield bench [--grids DIR]             time the 200-year ice run (default sample-grids/large)
+    forefield bench [--grids DIR] [--repeats N] [--only ice|coupled|dispersal]
+                                              time the 200-year ice and coupled runs and the fast
+                                              dispersal against direct convolution, as JSON lines
+                                              (default DIR sample-grids/large)
     forefield serve [--dir DIR] [--port P]    serve a folder on 127.0.0.1 (default www, 8765)
     forefield help                            this text
 
