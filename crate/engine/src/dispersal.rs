@@ -448,6 +448,19 @@ impl DispersalOperator {
     /// `rain[i]` = seeds landing in cell i from `production` (seeds leaving each cell).
     /// Allocates nothing; `scratch` must come from an operator on the same grid.
     pub fn apply(&self, production: &[f32], rain: &mut [f32], scratch: &mut DispersalScratch) {
+        self.apply_rows(production, rain, scratch, None);
+    }
+
+    /// [`Self::apply`], exact only in the rows where `needed_rows` (one flag a row) is set:
+    /// level rows that no needed row interpolates from are not filtered, and the other
+    /// rows of `rain` hold values to be ignored.
+    pub fn apply_rows(
+        &self,
+        production: &[f32],
+        rain: &mut [f32],
+        scratch: &mut DispersalScratch,
+        needed_rows: Option<&[bool]>,
+    ) {
         let n = self.n_cols * self.n_rows;
         assert!(production.len() == n && rain.len() == n, "grid size");
         assert!(
@@ -462,8 +475,40 @@ impl DispersalOperator {
             accum,
             vertical,
             line,
+            row_masks,
             ..
         } = scratch;
+        // Per level, the rows some needed row below reads through the interpolation.
+        let masked = if let Some(needed) = needed_rows {
+            assert!(needed.len() == self.n_rows, "one flag a row");
+            row_masks.fill(false);
+            let mut below_start = 0;
+            for (j, shape) in shapes.iter().enumerate().take(self.n_levels) {
+                let start = mask_start(shapes, j);
+                let (lower, upper) = row_masks.split_at_mut(start);
+                let below = if j == 0 {
+                    needed
+                } else {
+                    &lower[below_start..start]
+                };
+                let factor = if j == 0 { shape.factor } else { 2 };
+                let factor_y = if shape.n_rows == below.len() {
+                    1
+                } else {
+                    factor
+                };
+                let mask = &mut upper[..shape.n_rows];
+                for (row, _) in below.iter().enumerate().filter(|(_, &b)| b) {
+                    let (r0, r1, _) = coarse_position(row, shape.n_rows, factor_y);
+                    mask[r0] = true;
+                    mask[r1] = true;
+                }
+                below_start = start;
+            }
+            true
+        } else {
+            false
+        };
         // Sums up the pyramid.
         aggregate(
             production,
@@ -496,6 +541,8 @@ impl DispersalOperator {
         for group in self.components.chunk_by(|a, b| a.level == b.level) {
             let shape = &shapes[group[0].level];
             let range = shape.offset..shape.offset + shape.n_cols * shape.n_rows;
+            let start = mask_start(shapes, group[0].level);
+            let rows = masked.then(|| &row_masks[start..start + shape.n_rows]);
             filter(
                 &sums[range.clone()],
                 &mut accum[range],
@@ -505,6 +552,7 @@ impl DispersalOperator {
                 shape.n_rows,
                 group,
                 self.boundary,
+                rows,
             );
         }
         // Sums back down the pyramid and onto the fine grid.
@@ -559,6 +607,8 @@ pub struct DispersalScratch {
     accum: Vec<f32>,
     vertical: Vec<f32>,
     line: Vec<f32>,
+    /// One flag per row of every level, for [`DispersalOperator::apply_rows`].
+    row_masks: Vec<bool>,
 }
 
 impl DispersalScratch {
@@ -572,11 +622,12 @@ impl DispersalScratch {
             n_cols,
             n_rows,
             base_factor,
-            shapes,
             sums: vec![0.0; total],
             accum: vec![0.0; total],
             vertical: vec![0.0; longest],
             line: vec![0.0; 3 * longest + 4],
+            row_masks: vec![false; shapes.iter().map(|s| s.n_rows).sum()],
+            shapes,
         }
     }
 }
@@ -634,6 +685,7 @@ fn filter(
     n_rows: usize,
     components: &[Component],
     boundary: Boundary,
+    rows_needed: Option<&[bool]>,
 ) {
     let out_v = &mut vertical[..n_cols];
     let row_at = |from: isize| -> Option<usize> {
@@ -645,6 +697,9 @@ fn filter(
     };
     let line_of = |r: usize| &src[r * n_cols..(r + 1) * n_cols];
     for row in 0..n_rows {
+        if rows_needed.is_some_and(|needed| !needed[row]) {
+            continue;
+        }
         let out = &mut dst[row * n_cols..(row + 1) * n_cols];
         for component in components {
             let (taps, weight) = (&component.taps, component.weight);
@@ -709,6 +764,24 @@ fn filter(
     }
 }
 
+/// Where the row flags of `level` start in [`DispersalScratch::row_masks`].
+fn mask_start(shapes: &[LevelShape], level: usize) -> usize {
+    shapes[..level].iter().map(|s| s.n_rows).sum()
+}
+
+/// Coarse rows (or columns) of fine index `i` and the weight on the second.
+fn coarse_position(i: usize, n: usize, factor: usize) -> (usize, usize, f32) {
+    let x = (i as f32 + 0.5) / factor as f32 - 0.5;
+    if x <= 0.0 {
+        return (0, 0, 0.0);
+    }
+    let lo = x.floor() as usize;
+    if lo + 1 >= n {
+        return (n - 1, n - 1, 0.0);
+    }
+    (lo, lo + 1, x - lo as f32)
+}
+
 /// Adds (or with `ASSIGN` writes) the bilinear interpolation of coarse sums, spread over
 /// `factor x factor` fine cells, to `fine`. `row_buf` holds at least `c_cols` values.
 /// With `identity` = (values on the fine grid, weight), each fine row then adds weight x
@@ -732,17 +805,7 @@ fn interpolate<const ASSIGN: bool>(
     // Fine cell i lies at coarse position x = (i + 0.5) / factor - 0.5, between coarse cells
     // lo and lo + 1 with weight x - lo on lo + 1; outside the first and last centres the
     // edge value holds.
-    let position = |i: usize, n: usize, factor: usize| -> (usize, usize, f32) {
-        let x = (i as f32 + 0.5) / factor as f32 - 0.5;
-        if x <= 0.0 {
-            return (0, 0, 0.0);
-        }
-        let lo = x.floor() as usize;
-        if lo + 1 >= n {
-            return (n - 1, n - 1, 0.0);
-        }
-        (lo, lo + 1, x - lo as f32)
-    };
+    let position = coarse_position;
     let blended = &mut row_buf[..c_cols];
     for row in 0..f_rows {
         let (r0, r1, wy) = position(row, c_rows, factor_y);
@@ -942,5 +1005,28 @@ mod tests {
         op.apply(&production, &mut rain, &mut scratch);
         let total: f32 = rain.iter().sum();
         assert!((total - 1.0).abs() < 1e-3, "{total}");
+    }
+
+    #[test]
+    fn needed_rows_match_the_full_operator_exactly() {
+        let k = Kernel::from_mean(KernelFamily::NegativeExponential, 300.0, 1.0).expect("valid");
+        let (n_cols, n_rows) = (96, 120);
+        for (base, boundary) in [(1, Boundary::Absorbing), (4, Boundary::Reflecting)] {
+            let op = DispersalOperator::new(&k, 25.0, n_cols, n_rows, base, boundary);
+            assert!(op.cost().1 > 1, "more than one level");
+            let mut scratch = op.scratch();
+            let production: Vec<f32> = (0..n_cols * n_rows)
+                .map(|i| ((i * 7919) % 13) as f32)
+                .collect();
+            let mut full = vec![0.0; n_cols * n_rows];
+            op.apply(&production, &mut full, &mut scratch);
+            let needed: Vec<bool> = (0..n_rows).map(|r| r % 37 < 5 || r == 119).collect();
+            let mut part = vec![0.0; n_cols * n_rows];
+            op.apply_rows(&production, &mut part, &mut scratch, Some(&needed));
+            for (row, _) in needed.iter().enumerate().filter(|(_, &b)| b) {
+                let cells = row * n_cols..(row + 1) * n_cols;
+                assert_eq!(full[cells.clone()], part[cells], "row {row}");
+            }
+        }
     }
 }

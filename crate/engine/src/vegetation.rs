@@ -265,6 +265,8 @@ pub struct VegetationModel {
     chunk_established: Vec<bool>,
     /// Per chunk and year: whether every cell is open (neither fresh nor closed).
     chunk_open: Vec<bool>,
+    /// Per row: whether the type being dispersed needs updating in some chunk of it.
+    rows_needed: Vec<bool>,
 }
 
 /// Cells per block of the yearly update.
@@ -476,6 +478,7 @@ impl VegetationModel {
             chunk_occupied: Vec::new(),
             chunk_established: Vec::new(),
             chunk_open: vec![false; n.div_ceil(CHUNK)],
+            rows_needed: vec![false; n_rows],
         };
         model.chunk_max_temp_c = model.temp_base_c.chunks(CHUNK).map(chunk_max).collect();
         model.chunk_min_slope_deg = model
@@ -615,13 +618,22 @@ impl VegetationModel {
         let n = self.state.n_cells;
         debug_assert!(ice_thickness_m.len() == n && year_exposed.len() == n);
         self.strike_disturbances(year);
-        let mut long_distance_events = 0u32;
-        for t in 0..self.types.len() {
-            long_distance_events += self.disperse(t, year);
-        }
         let anomaly = temperature_anomaly_c as f32;
+        // Soil first: it reads only last year's cover, and with this year's soil known a
+        // type's seed rain is filtered only for rows where some chunk will read it.
         self.classify_cells(year, ice_thickness_m, year_exposed);
         self.develop_soil(anomaly);
+        let mut long_distance_events = 0u32;
+        for t in 0..self.types.len() {
+            let n_cols = self.n_cols;
+            for row in 0..self.n_rows {
+                let chunks = row * n_cols / CHUNK..((row + 1) * n_cols).div_ceil(CHUNK);
+                self.rows_needed[row] = chunks
+                    .into_iter()
+                    .any(|chunk| self.chunk_grows(t, chunk, anomaly));
+            }
+            long_distance_events += self.disperse(t, year);
+        }
         // Cells in blocks small enough that the per-block sums stay in the first-level
         // cache while every type passes over them, tallest first.
         let mut cover_sums = [0.0f64; MAX_TYPES];
@@ -657,6 +669,18 @@ impl VegetationModel {
             n_types: self.types.len(),
             long_distance_events,
         }
+    }
+
+    /// Whether type `t` needs updating in `chunk` this year: it is there, or some cell of
+    /// the chunk may be warm, developed and flat enough for it. Reads this year's soil.
+    fn chunk_grows(&self, t: usize, chunk: usize, anomaly_c: f32) -> bool {
+        chunk_grows(
+            &self.types[t].rates,
+            self.chunk_occupied[t * self.chunk_open.len() + chunk],
+            self.chunk_max_temp_c[chunk] + anomaly_c,
+            self.chunk_max_soil[chunk],
+            self.chunk_min_slope_deg[chunk],
+        )
     }
 
     /// Sorts cells into open, freshly exposed and closed (ice or nodata) for this year.
@@ -768,10 +792,14 @@ impl VegetationModel {
                 .take(cells.len().div_ceil(CHUNK))
             {
                 let chunk = first_chunk + k;
-                let barren = self.chunk_max_temp_c[chunk] + anomaly_c < rates.min_temp_c
-                    || self.chunk_max_soil[chunk] < rates.min_soil
-                    || self.chunk_min_slope_deg[chunk] > rates.max_slope_deg;
-                *kind = if !self.chunk_occupied[t * n_chunks + chunk] && barren {
+                let grows = chunk_grows(
+                    rates,
+                    self.chunk_occupied[t * n_chunks + chunk],
+                    self.chunk_max_temp_c[chunk] + anomaly_c,
+                    self.chunk_max_soil[chunk],
+                    self.chunk_min_slope_deg[chunk],
+                );
+                *kind = if !grows {
                     SKIP
                 } else if self.chunk_established[t * n_chunks + chunk] && self.chunk_open[chunk] {
                     ESTABLISHED
@@ -886,6 +914,9 @@ impl VegetationModel {
 
     /// Seed rain of type `t` into its rain layer: local kernel, seed bank, long-distance
     /// events. Returns the number of events drawn.
+    ///
+    /// The local kernel is exact only in the rows of `rows_needed`; no other row's rain
+    /// is read this year.
     fn disperse(&mut self, t: usize, year: i32) -> u32 {
         let n = self.state.n_cells;
         let n_cols = self.n_cols;
@@ -913,10 +944,13 @@ impl VegetationModel {
         let rain = &mut self.rain[t * n..(t + 1) * n];
         if total <= 0.0 {
             rain.fill(0.0);
-        } else {
-            setup
-                .operator
-                .apply(&self.production, rain, &mut self.scratch);
+        } else if self.rows_needed.iter().any(|&r| r) {
+            setup.operator.apply_rows(
+                &self.production,
+                rain,
+                &mut self.scratch,
+                Some(&self.rows_needed),
+            );
         }
         let duration = self.seed_bank.duration_a.round() as i32;
         for scheduled in &self.disturbances {
@@ -1082,6 +1116,21 @@ fn grow_cells<const ESTABLISHED: bool>(
         };
         oldest[i] = larger(oldest[i], tree_age);
     }
+}
+
+/// Whether a type needs its update in a chunk: it is there, or the warmest cell is warm
+/// enough, the most developed soil developed enough and the gentlest slope flat enough.
+fn chunk_grows(
+    rates: &TypeRates,
+    occupied: bool,
+    max_temp_c: f32,
+    max_soil: f32,
+    min_slope_deg: f32,
+) -> bool {
+    let barren = max_temp_c < rates.min_temp_c
+        || max_soil < rates.min_soil
+        || min_slope_deg > rates.max_slope_deg;
+    occupied || !barren
 }
 
 /// Sum of a layer in f32 lanes, then f64 (lanes keep the loop vectorised).
