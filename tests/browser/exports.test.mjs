@@ -15,22 +15,15 @@ import { fileURLToPath } from 'node:url';
 import { PNG } from 'pngjs';
 import { fromArrayBuffer } from 'geotiff';
 import { parse } from 'csv-parse/sync';
-import { ARTIFACTS, session, startPage, stopPage } from './harness.mjs';
+import {
+  ARTIFACTS, session, startPage, stopPage, exportFile,
+} from './harness.mjs';
 
 const HERE = dirname(fileURLToPath(import.meta.url));
 const SAMPLE = resolve(HERE, '..', '..', 'sample-grids');
 const CLI = process.env.FOREFIELD_CLI ?? resolve(HERE, '..', '..', 'target', 'release', 'forefield');
 const YEARS = 12;
 const CAUTION = /planning-level scenarios, not hazard assessments/;
-
-/** Clicks an export button and returns the downloaded file's name and bytes. */
-async function exportFile(buttonId) {
-  const { page } = session;
-  const [download] = await Promise.all([page.waitForEvent('download'), page.click(`#${buttonId}`)]);
-  const path = join(ARTIFACTS, download.suggestedFilename());
-  await download.saveAs(path);
-  return { name: download.suggestedFilename(), bytes: readFileSync(path) };
-}
 
 /** CSV rows after the leading `#` comment lines, parsed as RFC 4180 with a header row. */
 function readCsv(bytes) {

@@ -2,7 +2,7 @@
 // request and console error recorded, and small helpers that act as a planner would.
 
 import assert from 'node:assert/strict';
-import { mkdirSync } from 'node:fs';
+import { mkdirSync, readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { chromium } from 'playwright-core';
@@ -87,6 +87,23 @@ export async function pointAt(col, row) {
     slope: await read('slope'),
     aspect: await read('aspect'),
   };
+}
+
+/** Replaces a form field's text by typing, as a person would. */
+export async function typeInto(selector, text) {
+  const input = session.page.locator(selector);
+  await input.click();
+  await session.page.keyboard.press('Control+A');
+  await session.page.keyboard.type(text);
+}
+
+/** Clicks an export button and returns the downloaded file's name and bytes. */
+export async function exportFile(buttonId) {
+  const { page } = session;
+  const [download] = await Promise.all([page.waitForEvent('download'), page.click(`#${buttonId}`)]);
+  const path = join(ARTIFACTS, download.suggestedFilename());
+  await download.saveAs(path);
+  return { name: download.suggestedFilename(), bytes: readFileSync(path) };
 }
 
 export async function chooseFiles(files) {

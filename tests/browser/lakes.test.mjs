@@ -13,29 +13,15 @@ import { readFileSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { fromArrayBuffer } from 'geotiff';
-import { ARTIFACTS, colourAtCell, pointAt, session, shownNumber, startPage, stopPage } from './harness.mjs';
+import {
+  ARTIFACTS, colourAtCell, pointAt, session, shownNumber, startPage, stopPage, typeInto, exportFile,
+} from './harness.mjs';
 
 const HERE = dirname(fileURLToPath(import.meta.url));
 const SAMPLE = resolve(HERE, '..', '..', 'sample-grids');
 // Long enough for the tongue to leave the basin (about 30 years with the default warming).
 const YEARS = 45;
 const CAUTION = /outburst floods.*local authorities and qualified professionals/s;
-
-async function typeInto(selector, text) {
-  const input = session.page.locator(selector);
-  await input.click();
-  await session.page.keyboard.press('Control+A');
-  await session.page.keyboard.type(text);
-}
-
-/** Clicks an export button and returns the downloaded file's name and bytes. */
-async function exportFile(buttonId) {
-  const { page } = session;
-  const [download] = await Promise.all([page.waitForEvent('download'), page.click(`#${buttonId}`)]);
-  const path = join(ARTIFACTS, download.suggestedFilename());
-  await download.saveAs(path);
-  return { name: download.suggestedFilename(), bytes: readFileSync(path) };
-}
 
 async function readTiff(bytes) {
   const tiff = await fromArrayBuffer(bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.length));

@@ -5,17 +5,12 @@
 import { after, before, describe, test } from 'node:test';
 import assert from 'node:assert/strict';
 import { join } from 'node:path';
-import { ARTIFACTS, colourAtCell, mapSnapshot, session, startPage, stopPage } from './harness.mjs';
+import {
+  ARTIFACTS, colourAtCell, mapSnapshot, session, startPage, stopPage, typeInto,
+} from './harness.mjs';
 
 const YEARS = 40;
 const END = 2025 + YEARS;
-
-async function typeInto(selector, text) {
-  const input = session.page.locator(selector);
-  await input.click();
-  await session.page.keyboard.press('Control+A');
-  await session.page.keyboard.type(text);
-}
 
 async function showYear(year) {
   const { page } = session;

@@ -6,17 +6,11 @@
 import { after, before, describe, test } from 'node:test';
 import assert from 'node:assert/strict';
 import { join } from 'node:path';
-import { ARTIFACTS, colourAtCell, mapSnapshot, session, shownNumber, startPage, stopPage } from './harness.mjs';
+import {
+  ARTIFACTS, colourAtCell, mapSnapshot, session, shownNumber, startPage, stopPage, typeInto,
+} from './harness.mjs';
 
 const SHORT_YEARS = 60;
-
-/** Replaces a form field's text by typing, as a person would. */
-async function typeInto(selector, text) {
-  const input = session.page.locator(selector);
-  await input.click();
-  await session.page.keyboard.press('Control+A');
-  await session.page.keyboard.type(text);
-}
 
 async function runState() {
   return session.page.evaluate(() => window.forefield.state());

@@ -8,16 +8,11 @@ import { after, before, describe, test } from 'node:test';
 import assert from 'node:assert/strict';
 import { readFile, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
-import { ARTIFACTS, session, startPage, stopPage } from './harness.mjs';
+import {
+  ARTIFACTS, session, startPage, stopPage, typeInto,
+} from './harness.mjs';
 
 const YEARS = 5;
-
-async function typeInto(selector, text) {
-  const input = session.page.locator(selector);
-  await input.click();
-  await session.page.keyboard.press('Control+A');
-  await session.page.keyboard.type(text);
-}
 
 const cell = (row, trait) => `#pt-${row}-${trait}`;
 
