@@ -781,7 +781,8 @@ impl VegetationModel {
             let n_chunks = n.div_ceil(CHUNK);
             let first_chunk = cells.start / CHUNK;
             // Per chunk: skipped, updated in full, or updated without establishment draws
-            // (the type is in every cell and every cell is open, so no draw is used).
+            // (the type is in every cell and every cell is open, so no draw is used). A
+            // chunk where the type is absent is skipped too when no cell's draw can succeed.
             const SKIP: u8 = 0;
             const FULL: u8 = 1;
             const ESTABLISHED: u8 = 2;
@@ -799,12 +800,26 @@ impl VegetationModel {
                     self.chunk_max_soil[chunk],
                     self.chunk_min_slope_deg[chunk],
                 );
+                let occupied = self.chunk_occupied[t * n_chunks + chunk];
                 *kind = if !grows {
                     SKIP
                 } else if self.chunk_established[t * n_chunks + chunk] && self.chunk_open[chunk] {
                     ESTABLISHED
-                } else {
+                } else if occupied {
                     FULL
+                } else {
+                    let chunk_cells = chunk * CHUNK..((chunk + 1) * CHUNK).min(n);
+                    let rain = &self.rain[t * n + chunk_cells.start..t * n + chunk_cells.end];
+                    if may_establish(
+                        key,
+                        chunk_cells.start as u32,
+                        rain,
+                        rates.establishment_per_seed,
+                    ) {
+                        FULL
+                    } else {
+                        SKIP
+                    }
                 };
             }
             let kind_of = |chunk: usize| kinds[chunk - first_chunk];
@@ -1116,6 +1131,21 @@ fn grow_cells<const ESTABLISHED: bool>(
         };
         oldest[i] = larger(oldest[i], tree_age);
     }
+}
+
+/// Whether some cell of a chunk without the type may see it establish this year. The draw
+/// must fall below P(lambda) <= lambda <= seed rain x establishment per seed (suitability,
+/// light and free space are each at most 1; the fast exponential of
+/// [`establishment_probability`](crate::establishment::establishment_probability) errs by
+/// far less than lambda), so where every draw is at least twice that bound the update
+/// leaves every cell empty and every sum as it was: skipping it changes no bit.
+fn may_establish(key: u32, first_cell: u32, rain: &[f32], per_seed: f32) -> bool {
+    let mut any = false;
+    for (i, &seeds) in rain.iter().enumerate() {
+        let uniform = hash_uniform(key ^ (first_cell + i as u32));
+        any |= uniform < 2.0 * seeds * per_seed;
+    }
+    any
 }
 
 /// Whether a type needs its update in a chunk: it is there, or the warmest cell is warm
