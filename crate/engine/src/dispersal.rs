@@ -356,6 +356,9 @@ pub struct DispersalOperator {
     /// is all in the transfers): one scaled copy instead of one per component.
     level_identity_weight: Vec<f32>,
     components: Vec<Component>,
+    /// Filter only where seed can reach ([`filter`]); off only to check that it changes
+    /// nothing.
+    skip_empty: bool,
 }
 
 impl DispersalOperator {
@@ -432,6 +435,7 @@ impl DispersalOperator {
             identity_weight: identity_weight as f32,
             level_identity_weight,
             components,
+            skip_empty: true,
         }
     }
 
@@ -476,6 +480,7 @@ impl DispersalOperator {
             vertical,
             line,
             row_masks,
+            spans,
             ..
         } = scratch;
         // Per level, the rows some needed row below reads through the interpolation.
@@ -548,11 +553,13 @@ impl DispersalOperator {
                 &mut accum[range],
                 vertical,
                 line,
+                spans,
                 shape.n_cols,
                 shape.n_rows,
                 group,
                 self.boundary,
                 rows,
+                self.skip_empty,
             );
         }
         // Sums back down the pyramid and onto the fine grid.
@@ -609,6 +616,9 @@ pub struct DispersalScratch {
     line: Vec<f32>,
     /// One flag per row of every level, for [`DispersalOperator::apply_rows`].
     row_masks: Vec<bool>,
+    /// Per row of the level being filtered: its nonzero columns lie in `start..end`
+    /// (`start >= end` for a row of zeros).
+    spans: Vec<(u32, u32)>,
 }
 
 impl DispersalScratch {
@@ -627,6 +637,7 @@ impl DispersalScratch {
             vertical: vec![0.0; longest],
             line: vec![0.0; 3 * longest + 4],
             row_masks: vec![false; shapes.iter().map(|s| s.n_rows).sum()],
+            spans: vec![(0, 0); shapes[0].n_rows],
             shapes,
         }
     }
@@ -675,17 +686,26 @@ fn reflect(i: isize, n: usize) -> usize {
 /// an n_cols x n_rows level. Row by row: each output row is filtered vertically into
 /// `vertical` (one row) and at once horizontally into `dst`, every component in turn, so
 /// no whole intermediate image goes through memory and the rows stay in cache.
+///
+/// With an absorbing edge only the columns that some nonzero source can reach are
+/// filtered: a component's vertical pass runs over the columns where the rows within its
+/// reach have seed, its horizontal pass one reach further, and a row with no seed within
+/// reach is left alone. Everything skipped would have added exact zeros, so the result
+/// is the same to the bit (seed sources are patchy: ice, rock and the far side of a
+/// treeline produce none).
 #[allow(clippy::too_many_arguments)]
 fn filter(
     src: &[f32],
     dst: &mut [f32],
     vertical: &mut [f32],
     line: &mut [f32],
+    spans: &mut [(u32, u32)],
     n_cols: usize,
     n_rows: usize,
     components: &[Component],
     boundary: Boundary,
     rows_needed: Option<&[bool]>,
+    skip_empty: bool,
 ) {
     let out_v = &mut vertical[..n_cols];
     let row_at = |from: isize| -> Option<usize> {
@@ -696,6 +716,19 @@ fn filter(
         }
     };
     let line_of = |r: usize| &src[r * n_cols..(r + 1) * n_cols];
+    let spans = &mut spans[..n_rows];
+    for (row, span) in spans.iter_mut().enumerate() {
+        let values = line_of(row);
+        let skip = skip_empty && boundary == Boundary::Absorbing;
+        *span = match (skip, values.iter().position(|&v| v != 0.0)) {
+            (false, _) => (0, n_cols as u32),
+            (true, None) => (0, 0),
+            (true, Some(first)) => {
+                let last = values.iter().rposition(|&v| v != 0.0).unwrap_or(first);
+                (first as u32, last as u32 + 1)
+            }
+        };
+    }
     for row in 0..n_rows {
         if rows_needed.is_some_and(|needed| !needed[row]) {
             continue;
@@ -703,17 +736,32 @@ fn filter(
         let out = &mut dst[row * n_cols..(row + 1) * n_cols];
         for component in components {
             let (taps, weight) = (&component.taps, component.weight);
+            let radius = taps.len() / 2;
+            // Columns with seed in the rows within reach.
+            let (mut first, mut end) = (n_cols, 0);
+            for &(a, b) in &spans[row.saturating_sub(radius)..(row + radius + 1).min(n_rows)] {
+                if a < b {
+                    first = first.min(a as usize);
+                    end = end.max(b as usize);
+                }
+            }
+            if first >= end {
+                continue;
+            }
             if taps.len() == 1 {
-                for (d, &s) in out.iter_mut().zip(line_of(row)) {
+                for (d, &s) in out[first..end].iter_mut().zip(&line_of(row)[first..end]) {
                     *d += weight * s;
                 }
                 continue;
             }
-            let radius = taps.len() / 2;
             // The taps are symmetric, so each pair of rows (or columns) at the same distance
             // is added before one multiplication: half the multiplications of a plain pass.
+            let cols = first..end;
             let w = taps[radius];
-            for (o, &s) in out_v.iter_mut().zip(line_of(row)) {
+            for (o, &s) in out_v[cols.clone()]
+                .iter_mut()
+                .zip(&line_of(row)[cols.clone()])
+            {
                 *o = w * s;
             }
             for k in 1..=radius {
@@ -722,25 +770,36 @@ fn filter(
                 let below = row_at(row as isize + k as isize);
                 match (above, below) {
                     (Some(a), Some(b)) => {
-                        for ((o, &x), &y) in out_v.iter_mut().zip(line_of(a)).zip(line_of(b)) {
+                        for ((o, &x), &y) in out_v[cols.clone()]
+                            .iter_mut()
+                            .zip(&line_of(a)[cols.clone()])
+                            .zip(&line_of(b)[cols.clone()])
+                        {
                             *o += w * (x + y);
                         }
                     }
                     (Some(r), None) | (None, Some(r)) => {
-                        for (o, &x) in out_v.iter_mut().zip(line_of(r)) {
+                        for (o, &x) in out_v[cols.clone()]
+                            .iter_mut()
+                            .zip(&line_of(r)[cols.clone()])
+                        {
                             *o += w * x;
                         }
                     }
                     (None, None) => {}
                 }
             }
-            // Horizontal pass through a padded copy of the row.
+            // Horizontal pass through a padded copy of the row; the vertical sums are zero
+            // outside `cols`, so the output changes only within a reach of them.
             let padded = &mut line[..n_cols + 2 * radius];
+            let outputs = first.saturating_sub(radius)..(end + radius).min(n_cols);
             match boundary {
                 Boundary::Absorbing => {
-                    padded[..radius].fill(0.0);
-                    padded[radius + n_cols..].fill(0.0);
-                    padded[radius..radius + n_cols].copy_from_slice(out_v);
+                    // Padded index i holds column i - radius; the outputs read columns
+                    // outputs.start - radius .. outputs.end + radius.
+                    padded[outputs.start..first + radius].fill(0.0);
+                    padded[end + radius..outputs.end + 2 * radius].fill(0.0);
+                    padded[first + radius..end + radius].copy_from_slice(&out_v[cols]);
                 }
                 Boundary::Reflecting => {
                     for (i, p) in padded.iter_mut().enumerate() {
@@ -749,14 +808,18 @@ fn filter(
                 }
             }
             let w = taps[radius] * weight;
-            for (o, &s) in out.iter_mut().zip(&padded[radius..radius + n_cols]) {
+            let (o0, o1) = (outputs.start, outputs.end);
+            for (o, &s) in out[outputs]
+                .iter_mut()
+                .zip(&padded[o0 + radius..o1 + radius])
+            {
                 *o += w * s;
             }
             for k in 1..=radius {
                 let w = taps[radius + k] * weight;
-                let left = &padded[radius - k..radius - k + n_cols];
-                let right = &padded[radius + k..radius + k + n_cols];
-                for ((o, &x), &y) in out.iter_mut().zip(left).zip(right) {
+                let left = &padded[o0 + radius - k..o1 + radius - k];
+                let right = &padded[o0 + radius + k..o1 + radius + k];
+                for ((o, &x), &y) in out[o0..o1].iter_mut().zip(left).zip(right) {
                     *o += w * (x + y);
                 }
             }
@@ -1005,6 +1068,36 @@ mod tests {
         op.apply(&production, &mut rain, &mut scratch);
         let total: f32 = rain.iter().sum();
         assert!((total - 1.0).abs() < 1e-3, "{total}");
+    }
+
+    #[test]
+    fn skipping_seedless_columns_changes_no_bit() {
+        let k = Kernel::from_mean(KernelFamily::TwoDt, 200.0, 1.0).expect("valid");
+        let (n_cols, n_rows) = (150, 110);
+        // Patchy sources: a block, a lone cell near an edge, empty bands between.
+        let production: Vec<f32> = (0..n_cols * n_rows)
+            .map(|i| {
+                let (row, col) = (i / n_cols, i % n_cols);
+                let block = (40..55).contains(&row) && (60..90).contains(&col);
+                let lone = row == 3 && col == 146;
+                if block || lone {
+                    1.0 + (i % 7) as f32
+                } else {
+                    0.0
+                }
+            })
+            .collect();
+        for base in [1, 2] {
+            let op = DispersalOperator::new(&k, 10.0, n_cols, n_rows, base, Boundary::Absorbing);
+            let mut full_op = op.clone();
+            full_op.skip_empty = false;
+            let mut scratch = op.scratch();
+            let (mut skipped, mut full) = (vec![0.0; n_cols * n_rows], vec![0.0; n_cols * n_rows]);
+            op.apply(&production, &mut skipped, &mut scratch);
+            full_op.apply(&production, &mut full, &mut scratch);
+            let bits = |v: &[f32]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+            assert_eq!(bits(&skipped), bits(&full), "base {base}");
+        }
     }
 
     #[test]
