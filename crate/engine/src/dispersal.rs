@@ -466,7 +466,29 @@ impl DispersalOperator {
         needed_rows: Option<&[bool]>,
     ) {
         let n = self.n_cols * self.n_rows;
-        assert!(production.len() == n && rain.len() == n, "grid size");
+        assert!(production.len() == n, "grid size");
+        let n_cols = self.n_cols;
+        self.apply_rows_from(
+            |row, out| out.copy_from_slice(&production[row * n_cols..(row + 1) * n_cols]),
+            rain,
+            scratch,
+            needed_rows,
+        );
+    }
+
+    /// [`Self::apply_rows`] with the production written row by row by `source(row, out)`,
+    /// so that a caller need not hold a whole production layer: each row is summed into
+    /// the pyramid while it is in cache. `source` may be called more than once for a row
+    /// and must write the same values each time.
+    pub fn apply_rows_from<F: FnMut(usize, &mut [f32])>(
+        &self,
+        mut source: F,
+        rain: &mut [f32],
+        scratch: &mut DispersalScratch,
+        needed_rows: Option<&[bool]>,
+    ) {
+        let n = self.n_cols * self.n_rows;
+        assert!(rain.len() == n, "grid size");
         assert!(
             scratch.n_cols == self.n_cols
                 && scratch.n_rows == self.n_rows
@@ -481,6 +503,7 @@ impl DispersalOperator {
             line,
             row_masks,
             spans,
+            fine_row,
             ..
         } = scratch;
         // Per level, the rows some needed row below reads through the interpolation.
@@ -515,13 +538,14 @@ impl DispersalOperator {
             false
         };
         // Sums up the pyramid.
-        aggregate(
-            production,
-            self.n_cols,
-            self.n_rows,
-            &shapes[0],
-            &mut sums[..shapes[0].n_cols * shapes[0].n_rows],
-        );
+        let base_sums = &mut sums[..shapes[0].n_cols * shapes[0].n_rows];
+        aggregate_rows(&mut source, fine_row, self.n_rows, &shapes[0], base_sums);
+        if base_sums.iter().all(|&s| s == 0.0) {
+            // No seed at all (production is never negative): every filter and transfer
+            // would give zeros.
+            rain.fill(0.0);
+            return;
+        }
         for j in 1..self.n_levels {
             let (lower, upper) = sums.split_at_mut(shapes[j].offset);
             aggregate(
@@ -578,10 +602,23 @@ impl DispersalOperator {
             );
         }
         let base = &shapes[0];
-        let identity = (self.identity_weight > 0.0).then_some((production, self.identity_weight));
+        let w = self.identity_weight;
         if base.factor == 1 {
             rain.copy_from_slice(&accum[..n]);
+            if w > 0.0 {
+                for (row, out) in rain.chunks_exact_mut(self.n_cols).enumerate() {
+                    source(row, fine_row);
+                    for (r, &p) in out.iter_mut().zip(fine_row.iter()) {
+                        *r += w * p;
+                    }
+                }
+            }
         } else {
+            let identity = (w > 0.0).then_some(Identity {
+                source: &mut source,
+                row: fine_row,
+                weight: w,
+            });
             interpolate::<true>(
                 &accum[..base.n_cols * base.n_rows],
                 base.n_cols,
@@ -593,12 +630,6 @@ impl DispersalOperator {
                 line,
                 identity,
             );
-        }
-        if base.factor == 1 && self.identity_weight > 0.0 {
-            let w = self.identity_weight;
-            for (r, &p) in rain.iter_mut().zip(production) {
-                *r += w * p;
-            }
         }
     }
 }
@@ -619,6 +650,8 @@ pub struct DispersalScratch {
     /// Per row of the level being filtered: its nonzero columns lie in `start..end`
     /// (`start >= end` for a row of zeros).
     spans: Vec<(u32, u32)>,
+    /// One row of the fine grid's production.
+    fine_row: Vec<f32>,
 }
 
 impl DispersalScratch {
@@ -638,6 +671,7 @@ impl DispersalScratch {
             line: vec![0.0; 3 * longest + 4],
             row_masks: vec![false; shapes.iter().map(|s| s.n_rows).sum()],
             spans: vec![(0, 0); shapes[0].n_rows],
+            fine_row: vec![0.0; n_cols],
             shapes,
         }
     }
@@ -651,22 +685,55 @@ fn aggregate(src: &[f32], n_cols: usize, n_rows: usize, shape: &LevelShape, dst:
         return;
     }
     dst.fill(0.0);
+    for (row, src_row) in src.chunks_exact(n_cols).take(n_rows).enumerate() {
+        add_blocks(
+            src_row,
+            &mut dst[(row / b) * shape.n_cols..(row / b + 1) * shape.n_cols],
+            b,
+        );
+    }
+}
+
+/// [`aggregate`] of the rows `source` writes (`row_buf.len()` cells each).
+fn aggregate_rows<F: FnMut(usize, &mut [f32])>(
+    source: &mut F,
+    row_buf: &mut [f32],
+    n_rows: usize,
+    shape: &LevelShape,
+    dst: &mut [f32],
+) {
+    let b = shape.factor;
+    if b == 1 {
+        for (row, out) in dst.chunks_exact_mut(shape.n_cols).enumerate() {
+            source(row, out);
+        }
+        return;
+    }
+    dst.fill(0.0);
     for row in 0..n_rows {
-        let dst_row = &mut dst[(row / b) * shape.n_cols..(row / b + 1) * shape.n_cols];
-        let src_row = &src[row * n_cols..(row + 1) * n_cols];
-        if b == 2 {
-            // Every level above the base halves: pairs without an inner loop vectorise.
-            let mut pairs = src_row.chunks_exact(2);
-            for (d, pair) in dst_row.iter_mut().zip(&mut pairs) {
-                *d += pair[0] + pair[1];
-            }
-            if let (Some(d), [last]) = (dst_row.last_mut(), pairs.remainder()) {
-                *d += *last;
-            }
-        } else {
-            for (d, chunk) in dst_row.iter_mut().zip(src_row.chunks(b)) {
-                *d += chunk.iter().sum::<f32>();
-            }
+        source(row, row_buf);
+        add_blocks(
+            row_buf,
+            &mut dst[(row / b) * shape.n_cols..(row / b + 1) * shape.n_cols],
+            b,
+        );
+    }
+}
+
+/// Adds the sums of `b` consecutive cells of `src_row` to the cells of `dst_row`.
+fn add_blocks(src_row: &[f32], dst_row: &mut [f32], b: usize) {
+    if b == 2 {
+        // Every level above the base halves: pairs without an inner loop vectorise.
+        let mut pairs = src_row.chunks_exact(2);
+        for (d, pair) in dst_row.iter_mut().zip(&mut pairs) {
+            *d += pair[0] + pair[1];
+        }
+        if let (Some(d), [last]) = (dst_row.last_mut(), pairs.remainder()) {
+            *d += *last;
+        }
+    } else {
+        for (d, chunk) in dst_row.iter_mut().zip(src_row.chunks(b)) {
+            *d += chunk.iter().sum::<f32>();
         }
     }
 }
@@ -845,10 +912,17 @@ fn coarse_position(i: usize, n: usize, factor: usize) -> (usize, usize, f32) {
     (lo, lo + 1, x - lo as f32)
 }
 
+/// The share of seed that stays in its cell, added by [`interpolate`] row by row.
+struct Identity<'a> {
+    source: &'a mut dyn FnMut(usize, &mut [f32]),
+    row: &'a mut [f32],
+    weight: f32,
+}
+
 /// Adds (or with `ASSIGN` writes) the bilinear interpolation of coarse sums, spread over
 /// `factor x factor` fine cells, to `fine`. `row_buf` holds at least `c_cols` values.
-/// With `identity` = (values on the fine grid, weight), each fine row then adds weight x
-/// values while it is in cache.
+/// With `identity`, each fine row then adds weight x the source's row while it is in
+/// cache.
 #[allow(clippy::too_many_arguments)]
 fn interpolate<const ASSIGN: bool>(
     coarse: &[f32],
@@ -859,7 +933,7 @@ fn interpolate<const ASSIGN: bool>(
     f_rows: usize,
     factor: usize,
     row_buf: &mut [f32],
-    identity: Option<(&[f32], f32)>,
+    mut identity: Option<Identity>,
 ) {
     // An axis of one cell (a strip) is not aggregated, so it spreads over one cell.
     let along = |c: usize, f: usize| if c == f { 1 } else { factor };
@@ -887,12 +961,15 @@ fn interpolate<const ASSIGN: bool>(
         } else {
             spread_blocks::<ASSIGN>(blended, out, factor_x);
         }
-        if let Some((values, w)) = identity {
-            for (o, &v) in out
-                .iter_mut()
-                .zip(&values[row * f_cols..(row + 1) * f_cols])
-            {
-                *o += w * v;
+        if let Some(Identity {
+            source,
+            row: values,
+            weight,
+        }) = identity.as_mut()
+        {
+            source(row, values);
+            for (o, &v) in out.iter_mut().zip(values.iter()) {
+                *o += *weight * v;
             }
         }
     }

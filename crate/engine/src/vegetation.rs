@@ -893,8 +893,11 @@ impl VegetationModel {
                 code
             };
         }
+        // One counting pass per stage over bytes; the sums of 0/1 vectorise, a histogram's
+        // scattered increments would not.
         for (k, count) in stage_cells.iter_mut().enumerate() {
-            *count += stages.iter().filter(|&&c| usize::from(c) == k).count();
+            let matches: u32 = stages.iter().map(|&c| u32::from(c == k as u8)).sum();
+            *count += matches as usize;
         }
     }
 
@@ -939,34 +942,36 @@ impl VegetationModel {
         let cover = &self.state.cover[t * n..(t + 1) * n];
         let ages = &self.state.age_a[t * n..(t + 1) * n];
         let local = setup.seeds_per_cover * (1.0 - setup.long_distance_share);
-        let mut total = 0.0f64;
-        for row in 0..self.n_rows {
+        // Production row by row, straight into the filters' pyramid (a whole layer would
+        // go through memory twice more), with the running total per row for the
+        // long-distance draws. Every pass of the operator visits the rows in order.
+        let row_production = &mut self.row_production;
+        let mut source = |row: usize, out: &mut [f32]| {
             let cells = row * n_cols..(row + 1) * n_cols;
-            for ((p, &c), &age) in self.production[cells.clone()]
-                .iter_mut()
-                .zip(&cover[cells.clone()])
-                .zip(&ages[cells.clone()])
-            {
-                *p = if age >= setup.age_first_seed_a {
-                    c * local
-                } else {
-                    0.0
-                };
-            }
-            total += lane_sum(&self.production[cells]);
-            self.row_production[row] = total;
-        }
+            production_row(setup, local, &cover[cells.clone()], &ages[cells], out);
+            let before = if row > 0 {
+                row_production[row - 1]
+            } else {
+                0.0
+            };
+            row_production[row] = before + lane_sum(out);
+        };
         let rain = &mut self.rain[t * n..(t + 1) * n];
-        if total <= 0.0 {
-            rain.fill(0.0);
-        } else if self.rows_needed.iter().any(|&r| r) {
-            setup.operator.apply_rows(
-                &self.production,
+        if self.rows_needed.iter().any(|&r| r) {
+            setup.operator.apply_rows_from(
+                &mut source,
                 rain,
                 &mut self.scratch,
                 Some(&self.rows_needed),
             );
+        } else {
+            // No row's rain is read this year; the total still sets the long-distance draws.
+            let row_buf = &mut self.production[..n_cols];
+            for row in 0..self.n_rows {
+                source(row, row_buf);
+            }
         }
+        let total = self.row_production[self.n_rows - 1];
         let duration = self.seed_bank.duration_a.round() as i32;
         for scheduled in &self.disturbances {
             let since = year - scheduled.event.year;
@@ -1008,10 +1013,16 @@ impl VegetationModel {
             };
             let mut left = (target - before) as f32;
             let mut col = n_cols - 1;
-            for (c, &p) in self.production[row * n_cols..(row + 1) * n_cols]
-                .iter()
-                .enumerate()
-            {
+            let cells = row * n_cols..(row + 1) * n_cols;
+            let row_buf = &mut self.production[..n_cols];
+            production_row(
+                setup,
+                local,
+                &self.state.cover[t * n..(t + 1) * n][cells.clone()],
+                &self.state.age_a[t * n..(t + 1) * n][cells],
+                row_buf,
+            );
+            for (c, &p) in row_buf.iter().enumerate() {
                 left -= p;
                 if left <= 0.0 {
                     col = c;
@@ -1028,6 +1039,18 @@ impl VegetationModel {
             }
         }
         n_events as u32
+    }
+}
+
+/// Seed leaving each cell of a row: cover times seed per cover where the type is old
+/// enough to seed.
+fn production_row(setup: &TypeSetup, per_cover: f32, cover: &[f32], ages: &[f32], out: &mut [f32]) {
+    for ((p, &c), &age) in out.iter_mut().zip(cover).zip(ages) {
+        *p = if age >= setup.age_first_seed_a {
+            c * per_cover
+        } else {
+            0.0
+        };
     }
 }
 
