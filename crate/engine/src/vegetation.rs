@@ -946,9 +946,11 @@ impl VegetationModel {
         // go through memory twice more), with the running total per row for the
         // long-distance draws. Every pass of the operator visits the rows in order.
         let row_production = &mut self.row_production;
+        let n_chunks = n.div_ceil(CHUNK);
+        let occupied = &self.chunk_occupied[t * n_chunks..(t + 1) * n_chunks];
         let mut source = |row: usize, out: &mut [f32]| {
             let cells = row * n_cols..(row + 1) * n_cols;
-            production_row(setup, local, &cover[cells.clone()], &ages[cells], out);
+            production_row(setup, local, cover, ages, occupied, cells, out);
             let before = if row > 0 {
                 row_production[row - 1]
             } else {
@@ -1011,19 +1013,18 @@ impl VegetationModel {
             } else {
                 0.0
             };
+            // The source column: where the row's running production reaches the target.
             let mut left = (target - before) as f32;
             let mut col = n_cols - 1;
-            let cells = row * n_cols..(row + 1) * n_cols;
-            let row_buf = &mut self.production[..n_cols];
-            production_row(
-                setup,
-                local,
-                &self.state.cover[t * n..(t + 1) * n][cells.clone()],
-                &self.state.age_a[t * n..(t + 1) * n][cells],
-                row_buf,
-            );
-            for (c, &p) in row_buf.iter().enumerate() {
-                left -= p;
+            let first = t * n + row * n_cols;
+            let cells = first..first + n_cols;
+            let threshold = setup.age_first_seed_a;
+            for (c, (&cover, &age)) in self.state.cover[cells.clone()]
+                .iter()
+                .zip(&self.state.age_a[cells])
+                .enumerate()
+            {
+                left -= if age >= threshold { cover * local } else { 0.0 };
                 if left <= 0.0 {
                     col = c;
                     break;
@@ -1042,15 +1043,37 @@ impl VegetationModel {
     }
 }
 
-/// Seed leaving each cell of a row: cover times seed per cover where the type is old
-/// enough to seed.
-fn production_row(setup: &TypeSetup, per_cover: f32, cover: &[f32], ages: &[f32], out: &mut [f32]) {
-    for ((p, &c), &age) in out.iter_mut().zip(cover).zip(ages) {
-        *p = if age >= setup.age_first_seed_a {
-            c * per_cover
+/// Seed leaving each of the cells `cells` of one type's `cover` and `ages` layers: cover
+/// times seed per cover where the type is old enough to seed. Chunks the type is absent
+/// from (`occupied`, one flag a chunk) give zeros without reading the layers, which on
+/// large grids are far beyond the caches.
+fn production_row(
+    setup: &TypeSetup,
+    per_cover: f32,
+    cover: &[f32],
+    ages: &[f32],
+    occupied: &[bool],
+    cells: std::ops::Range<usize>,
+    out: &mut [f32],
+) {
+    let threshold = setup.age_first_seed_a;
+    let mut start = cells.start;
+    while start < cells.end {
+        let chunk = start / CHUNK;
+        let end = ((chunk + 1) * CHUNK).min(cells.end);
+        let out = &mut out[start - cells.start..end - cells.start];
+        if occupied[chunk] {
+            for ((p, &c), &age) in out
+                .iter_mut()
+                .zip(&cover[start..end])
+                .zip(&ages[start..end])
+            {
+                *p = if age >= threshold { c * per_cover } else { 0.0 };
+            }
         } else {
-            0.0
-        };
+            out.fill(0.0);
+        }
+        start = end;
     }
 }
 
