@@ -770,12 +770,7 @@ impl VegetationModel {
         let [canopy, graminoid, woody, tree, oldest] = sums;
         for &t in &self.order {
             let setup = &self.types[t];
-            let form_weights = match setup.form {
-                GrowthForm::PioneerHerb => [0.0, 0.0, 0.0],
-                GrowthForm::Graminoid => [1.0, 0.0, 0.0],
-                GrowthForm::Shrub => [0.0, 1.0, 0.0],
-                GrowthForm::Tree => [0.0, 1.0, 1.0],
-            };
+            let form = setup.form;
             let rates = &setup.rates;
             let key = draw_key(self.establishment_key, year, t);
             let n_chunks = n.div_ceil(CHUNK);
@@ -837,14 +832,19 @@ impl VegetationModel {
                 }
                 let local = start - cells.start..end - cells.start;
                 let layer = t * n + start..t * n + end;
-                let grow = if kind == ESTABLISHED {
-                    grow_cells::<true>
-                } else {
-                    grow_cells::<false>
+                // One loop per growth form, so each adds only to the sums it counts in.
+                let grow = match (kind == ESTABLISHED, form) {
+                    (true, GrowthForm::PioneerHerb) => grow_cells::<true, HERB>,
+                    (true, GrowthForm::Graminoid) => grow_cells::<true, GRAMINOID>,
+                    (true, GrowthForm::Shrub) => grow_cells::<true, SHRUB>,
+                    (true, GrowthForm::Tree) => grow_cells::<true, TREE>,
+                    (false, GrowthForm::PioneerHerb) => grow_cells::<false, HERB>,
+                    (false, GrowthForm::Graminoid) => grow_cells::<false, GRAMINOID>,
+                    (false, GrowthForm::Shrub) => grow_cells::<false, SHRUB>,
+                    (false, GrowthForm::Tree) => grow_cells::<false, TREE>,
                 };
                 grow(
                     rates,
-                    form_weights,
                     key,
                     start as u32,
                     anomaly_c,
@@ -1116,9 +1116,8 @@ struct FormSums<'a> {
 /// The cell loop of one type in [`VegetationModel::update_block`], over slices of one length so that the
 /// compiler drops bounds checks.
 #[allow(clippy::too_many_arguments)]
-fn grow_cells<const ESTABLISHED: bool>(
+fn grow_cells<const ESTABLISHED: bool, const FORM: u8>(
     rates: &TypeRates,
-    [is_graminoid, is_woody, is_tree]: [f32; 3],
     key: u32,
     first_cell: u32,
     anomaly_c: f32,
@@ -1167,17 +1166,25 @@ fn grow_cells<const ESTABLISHED: bool>(
         cover[i] = c;
         ages[i] = age;
         canopy[i] = under + c;
-        graminoid[i] += is_graminoid * c;
-        woody[i] += is_woody * c;
-        tree[i] += is_tree * c;
-        let tree_age = if (is_tree > 0.0) & (c >= 0.05) {
-            age
-        } else {
-            0.0
-        };
-        oldest[i] = larger(oldest[i], tree_age);
+        if FORM == GRAMINOID {
+            graminoid[i] += c;
+        }
+        if FORM == SHRUB || FORM == TREE {
+            woody[i] += c;
+        }
+        if FORM == TREE {
+            tree[i] += c;
+            let tree_age = if c >= 0.05 { age } else { 0.0 };
+            oldest[i] = larger(oldest[i], tree_age);
+        }
     }
 }
+
+/// Growth forms as [`grow_cells`] parameters.
+const HERB: u8 = 0;
+const GRAMINOID: u8 = 1;
+const SHRUB: u8 = 2;
+const TREE: u8 = 3;
 
 /// Whether some cell of a chunk without the type may see it establish this year. The draw
 /// must fall below P(lambda) <= lambda <= seed rain x establishment per seed (suitability,
