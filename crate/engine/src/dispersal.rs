@@ -484,8 +484,9 @@ impl DispersalOperator {
 
     /// [`Self::apply_rows`] with the production written row by row by `source(row, out)`,
     /// so that a caller need not hold a whole production layer: each row is summed into
-    /// the pyramid while it is in cache. `source` may be called more than once for a row
-    /// and must write the same values each time.
+    /// the pyramid while it is in cache. The first pass over the rows visits every row in
+    /// order; `source` may be called again for some rows, in increasing order, and must
+    /// write the same values each time.
     pub fn apply_rows_from<F: FnMut(usize, &mut [f32])>(
         &self,
         mut source: F,
@@ -614,6 +615,7 @@ impl DispersalOperator {
                 2,
                 line,
                 None,
+                None,
             );
         }
         let base = &shapes[0];
@@ -644,6 +646,7 @@ impl DispersalOperator {
                 base.factor,
                 line,
                 identity,
+                needed_rows,
             );
         }
     }
@@ -734,7 +737,10 @@ fn restrict_rows<F: FnMut(usize, &mut [f32])>(
     dst.fill(0.0);
     for row in 0..n_rows {
         source(row, fine_row);
-        restrict_row(fine_row, row, n_rows, shape, dst, row_buf);
+        // A row without seed (ice, rock, beyond a type's range) would add only zeros.
+        if fine_row.iter().fold(false, |any, &v| any | (v != 0.0)) {
+            restrict_row(fine_row, row, n_rows, shape, dst, row_buf);
+        }
     }
 }
 
@@ -978,7 +984,7 @@ struct Identity<'a> {
 /// Adds (or with `ASSIGN` writes) the bilinear interpolation of coarse sums, spread over
 /// `factor x factor` fine cells, to `fine`. `row_buf` holds at least `c_cols` values.
 /// With `identity`, each fine row then adds weight x the source's row while it is in
-/// cache.
+/// cache. Fine rows not in `rows_needed` are left as they are.
 #[allow(clippy::too_many_arguments)]
 fn interpolate<const ASSIGN: bool>(
     coarse: &[f32],
@@ -990,6 +996,7 @@ fn interpolate<const ASSIGN: bool>(
     factor: usize,
     row_buf: &mut [f32],
     mut identity: Option<Identity>,
+    rows_needed: Option<&[bool]>,
 ) {
     // An axis of one cell (a strip) is not aggregated, so it spreads over one cell.
     let along = |c: usize, f: usize| if c == f { 1 } else { factor };
@@ -1001,6 +1008,9 @@ fn interpolate<const ASSIGN: bool>(
     let position = coarse_position;
     let blended = &mut row_buf[..c_cols];
     for row in 0..f_rows {
+        if rows_needed.is_some_and(|needed| !needed[row]) {
+            continue;
+        }
         let (r0, r1, wy) = position(row, c_rows, factor_y);
         let top = &coarse[r0 * c_cols..(r0 + 1) * c_cols];
         let bottom = &coarse[r1 * c_cols..(r1 + 1) * c_cols];

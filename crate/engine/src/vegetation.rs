@@ -944,7 +944,8 @@ impl VegetationModel {
         let local = setup.seeds_per_cover * (1.0 - setup.long_distance_share);
         // Production row by row, straight into the filters' pyramid (a whole layer would
         // go through memory twice more), with the running total per row for the
-        // long-distance draws. Every pass of the operator visits the rows in order.
+        // long-distance draws. The operator's first pass visits every row in order, later
+        // ones some rows in order, so the totals come out the same each time.
         let row_production = &mut self.row_production;
         let n_chunks = n.div_ceil(CHUNK);
         let occupied = &self.chunk_occupied[t * n_chunks..(t + 1) * n_chunks];
@@ -1017,18 +1018,28 @@ impl VegetationModel {
             let mut left = (target - before) as f32;
             let mut col = n_cols - 1;
             let first = t * n + row * n_cols;
-            let cells = first..first + n_cols;
             let threshold = setup.age_first_seed_a;
-            for (c, (&cover, &age)) in self.state.cover[cells.clone()]
-                .iter()
-                .zip(&self.state.age_a[cells])
-                .enumerate()
-            {
-                left -= if age >= threshold { cover * local } else { 0.0 };
-                if left <= 0.0 {
-                    col = c;
-                    break;
+            let occupied = &self.chunk_occupied[t * n_chunks..(t + 1) * n_chunks];
+            let mut c = 0;
+            'search: while c < n_cols {
+                let chunk = (first + c - t * n) / CHUNK;
+                let end = ((chunk + 1) * CHUNK + t * n - first).min(n_cols);
+                // Chunks without the type produce nothing: skipping them leaves `left` as
+                // it is.
+                if occupied[chunk] {
+                    for (k, (&cover, &age)) in self.state.cover[first + c..first + end]
+                        .iter()
+                        .zip(&self.state.age_a[first + c..first + end])
+                        .enumerate()
+                    {
+                        left -= if age >= threshold { cover * local } else { 0.0 };
+                        if left <= 0.0 {
+                            col = c + k;
+                            break 'search;
+                        }
+                    }
                 }
+                c = end;
             }
             let distance =
                 setup.long_distance_kernel.sample_distance_m(&mut self.rng) / self.cell_size_m;
