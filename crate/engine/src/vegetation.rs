@@ -242,7 +242,8 @@ pub struct VegetationModel {
     /// Seed from which each year's establishment draws are keyed.
     establishment_key: u64,
     scratch: DispersalScratch,
-    production: Vec<f32>,
+    /// One row of seed production.
+    production_row: Vec<f32>,
     rain: Vec<f32>,
     row_production: Vec<f64>,
     /// Per cell and year: [`CELL_OPEN`], [`CELL_FRESH`] or [`CELL_CLOSED`] (`f32` codes,
@@ -465,7 +466,7 @@ impl VegetationModel {
             soil_temp_factor,
             n_invalid,
             establishment_key: seed ^ 0x9E37_79B9_7F4A_7C15,
-            production: vec![0.0; n],
+            production_row: vec![0.0; n_cols],
             rain: vec![0.0; n_types * n],
             row_production: vec![0.0; n_rows],
             cell_kind: vec![CELL_CLOSED; n],
@@ -621,8 +622,7 @@ impl VegetationModel {
         let anomaly = temperature_anomaly_c as f32;
         // Soil first: it reads only last year's cover, and with this year's soil known a
         // type's seed rain is filtered only for rows where some chunk will read it.
-        self.classify_cells(year, ice_thickness_m, year_exposed);
-        self.develop_soil(anomaly);
+        self.classify_and_develop_soil(year, ice_thickness_m, year_exposed, anomaly);
         let mut long_distance_events = 0u32;
         for t in 0..self.types.len() {
             let n_cols = self.n_cols;
@@ -683,67 +683,71 @@ impl VegetationModel {
         )
     }
 
-    /// Sorts cells into open, freshly exposed and closed (ice or nodata) for this year.
-    fn classify_cells(&mut self, year: i32, ice_thickness_m: &[f32], year_exposed: &[i32]) {
-        for (((kind, &ice), &exposed), &valid) in self
-            .cell_kind
-            .iter_mut()
-            .zip(ice_thickness_m)
-            .zip(year_exposed)
-            .zip(&self.valid)
-        {
-            *kind = if !valid || ice >= ICE_COVER_THRESHOLD_M {
-                CELL_CLOSED
-            } else if exposed == year {
-                CELL_FRESH
-            } else {
-                CELL_OPEN
-            };
-        }
-    }
-
-    /// One year of soil development; ice and fresh ground start from nothing (glacial
-    /// scour). Nitrogen fixers act through last year's cover.
-    fn develop_soil(&mut self, anomaly_c: f32) {
+    /// Sorts cells into open, freshly exposed and closed (ice or nodata) for this year and
+    /// develops the soil one year: ice and fresh ground start from nothing (glacial scour),
+    /// nitrogen fixers act through last year's cover. One pass, chunk by chunk, that also
+    /// records each chunk's richest soil and whether it is all open: the layers it reads
+    /// are far beyond the caches on large grids.
+    fn classify_and_develop_soil(
+        &mut self,
+        year: i32,
+        ice_thickness_m: &[f32],
+        year_exposed: &[i32],
+        anomaly_c: f32,
+    ) {
         let n = self.state.n_cells;
         // The Q10 response factors into a per-cell part and one for the year's anomaly.
         let year_factor = libm::powf(self.soil.q10 as f32, anomaly_c / 10.0);
-        let fixer = &mut self.production;
-        fixer.fill(0.0);
-        for (t, setup) in self.types.iter().enumerate() {
-            if setup.nitrogen_fixer {
-                for (f, &c) in fixer.iter_mut().zip(&self.state.cover[t * n..(t + 1) * n]) {
-                    *f += c;
+        let boost = self.fixer_boost;
+        for (chunk, start) in (0..n).step_by(CHUNK).enumerate() {
+            let cells = start..(start + CHUNK).min(n);
+            let len = cells.len();
+            let kinds = &mut self.cell_kind[cells.clone()];
+            for (((kind, &ice), &exposed), &valid) in kinds
+                .iter_mut()
+                .zip(&ice_thickness_m[cells.clone()])
+                .zip(&year_exposed[cells.clone()])
+                .zip(&self.valid[cells.clone()])
+            {
+                *kind = if !valid || ice >= ICE_COVER_THRESHOLD_M {
+                    CELL_CLOSED
+                } else if exposed == year {
+                    CELL_FRESH
+                } else {
+                    CELL_OPEN
+                };
+            }
+            let mut fixer = [0.0f32; CHUNK];
+            for (t, setup) in self.types.iter().enumerate() {
+                if setup.nitrogen_fixer {
+                    let cover = &self.state.cover[t * n + cells.start..t * n + cells.end];
+                    for (f, &c) in fixer[..len].iter_mut().zip(cover) {
+                        *f += c;
+                    }
                 }
             }
-        }
-        let boost = self.fixer_boost;
-        for ((((soil, &kind), &site), &temp_factor), &fixer) in self
-            .state
-            .soil
+            let mut bound = [0.0f32; CHUNK];
+            for (((((soil, &kind), &site), &temp_factor), &fixer), b) in self.state.soil
+                [cells.clone()]
             .iter_mut()
-            .zip(&self.cell_kind)
-            .zip(&self.soil_site_rate)
-            .zip(&self.soil_temp_factor)
-            .zip(fixer.iter())
-        {
-            let (start, fixer) = if kind == CELL_OPEN {
-                (*soil, fixer)
-            } else {
-                (0.0, 0.0)
-            };
-            let developed = develop(start, site, temp_factor * year_factor, 1.0 + boost * fixer);
-            *soil = if kind == CELL_CLOSED { 0.0 } else { developed };
-        }
-        let bound = &mut self.production;
-        for ((b, &soil), &kind) in bound.iter_mut().zip(&self.state.soil).zip(&self.cell_kind) {
-            *b = if kind == CELL_CLOSED { -1.0 } else { soil };
-        }
-        for (max, chunk) in self.chunk_max_soil.iter_mut().zip(bound.chunks(CHUNK)) {
-            *max = chunk_max(chunk);
-        }
-        for (open, kinds) in self.chunk_open.iter_mut().zip(self.cell_kind.chunks(CHUNK)) {
-            *open = kinds.iter().fold(true, |all, &k| all & (k == CELL_OPEN));
+            .zip(kinds.iter())
+            .zip(&self.soil_site_rate[cells.clone()])
+            .zip(&self.soil_temp_factor[cells.clone()])
+            .zip(&fixer[..len])
+            .zip(&mut bound[..len])
+            {
+                let (start, fixer) = if kind == CELL_OPEN {
+                    (*soil, fixer)
+                } else {
+                    (0.0, 0.0)
+                };
+                let developed =
+                    develop(start, site, temp_factor * year_factor, 1.0 + boost * fixer);
+                *soil = if kind == CELL_CLOSED { 0.0 } else { developed };
+                *b = if kind == CELL_CLOSED { -1.0 } else { *soil };
+            }
+            self.chunk_max_soil[chunk] = chunk_max(&bound[..len]);
+            self.chunk_open[chunk] = kinds.iter().fold(true, |all, &k| all & (k == CELL_OPEN));
         }
     }
 
@@ -969,7 +973,7 @@ impl VegetationModel {
             );
         } else {
             // No row's rain is read this year; the total still sets the long-distance draws.
-            let row_buf = &mut self.production[..n_cols];
+            let row_buf = &mut self.production_row[..];
             for row in 0..self.n_rows {
                 source(row, row_buf);
             }
