@@ -31,8 +31,9 @@ pub struct ExportRequest {
 
 pub const FORMATS: [&str; 4] = ["png", "tif", "csv", "geojson"];
 
-pub const EXPORT_OPTIONS: &str = "\
-    --years Y,Y,...     years to export, or `last` (default), `start`, `all`
+// No line-continuation backslash: it would eat the first line's indent.
+pub const EXPORT_OPTIONS: &str =
+    "    --years Y,Y,...     years to export, or `last` (default), `start`, `all`
     --layers L,L,...    ice_thickness, exposure_year, stage, cover:N, soil, lakes,
                         steep_bare, or `all`
                         (default ice_thickness, and stage for runs with plants)
