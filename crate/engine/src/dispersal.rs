@@ -1214,6 +1214,42 @@ mod tests {
     }
 
     #[test]
+    fn coarse_levels_keep_a_sources_mass_and_place() {
+        // Full weighting keeps a lone source's centroid where it is, whichever fine cell of
+        // its coarse cell it sits in; block sums would move it to the coarse centre, half a
+        // block off. Even and odd widths take the paired and the general transfer.
+        let k = Kernel::from_mean(KernelFamily::NegativeExponential, 100.0, 1.0).expect("valid");
+        for (n_cols, n_rows) in [(128, 128), (127, 125)] {
+            let op = DispersalOperator::new(&k, 10.0, n_cols, n_rows, 2, Boundary::Absorbing);
+            assert!(op.cost().1 > 2, "several levels");
+            let mut scratch = op.scratch();
+            for (row, col) in [(60, 60), (60, 61), (61, 60), (63, 64)] {
+                let mut production = vec![0.0; n_cols * n_rows];
+                production[row * n_cols + col] = 1.0;
+                let mut rain = vec![0.0; n_cols * n_rows];
+                op.apply(&production, &mut rain, &mut scratch);
+                let (mut mass, mut x, mut y) = (0.0f64, 0.0f64, 0.0f64);
+                for (i, &r) in rain.iter().enumerate() {
+                    mass += f64::from(r);
+                    x += f64::from(r) * (i % n_cols) as f64;
+                    y += f64::from(r) * (i / n_cols) as f64;
+                }
+                // The edge is 60 cells (12 kernel scales) away.
+                assert!((mass - 1.0).abs() < 1e-3, "mass {mass}");
+                let (x, y) = (x / mass, y / mass);
+                assert!(
+                    (x - col as f64).abs() < 0.1,
+                    "{n_cols}: col {col}, centroid {x}"
+                );
+                assert!(
+                    (y - row as f64).abs() < 0.1,
+                    "{n_rows}: row {row}, centroid {y}"
+                );
+            }
+        }
+    }
+
+    #[test]
     fn skipping_seedless_columns_changes_no_bit() {
         let k = Kernel::from_mean(KernelFamily::TwoDt, 200.0, 1.0).expect("valid");
         let (n_cols, n_rows) = (150, 110);
