@@ -95,7 +95,7 @@ fn bench_ice(bed: &Grid, ice: &Grid, scenario: &Scenario, repeats: usize) -> Res
     let start = simulation.summary()[0];
     let end = simulation.summary()[years];
     let g = simulation.geometry();
-    println!(
+    outln!(
         "{{\"bench\":\"ice_run\",\"side\":\"native\",\"grid\":\"{}x{}\",\"years\":{years},\"repeats\":{repeats},\"seconds_median\":{median:.4},\"seconds_min\":{min:.4},\"seconds_max\":{max:.4},\"seconds_per_year\":{:.6},\"ice_cell_updates_per_second\":{:.0},\"ice_cells_start\":{},\"ice_area_km2_start\":{:.3},\"ice_area_km2_end\":{:.3}}}",
         g.n_cols,
         g.n_rows,
@@ -133,7 +133,7 @@ fn bench_coupled(
     let n_types = scenario.vegetation.types.len();
     let forest_km2 = end.vegetation.stage_area_km2[5] + end.vegetation.stage_area_km2[6];
     let g = bed.geometry;
-    println!(
+    outln!(
         "{{\"bench\":\"coupled_run\",\"side\":\"native\",\"grid\":\"{}x{}\",\"years\":{years},\"plant_types\":{n_types},\"repeats\":{repeats},\"seconds_median\":{median:.4},\"seconds_min\":{min:.4},\"seconds_max\":{max:.4},\"seconds_per_year\":{:.6},\"cell_years_per_second\":{:.0},\"forest_area_km2_end\":{forest_km2:.3}}}",
         g.n_cols,
         g.n_rows,
@@ -202,7 +202,7 @@ fn bench_dispersal(repeats: usize) -> Result<()> {
             .sum();
         error[slot] = diff / direct.iter().map(|&b| f64::from(b)).sum::<f64>();
     }
-    println!(
+    outln!(
         "{{\"bench\":\"dispersal_fast_vs_direct\",\"side\":\"native\",\"grid\":\"{N}x{N}\",\"kernel\":\"2dt mean {} m\",\"radius_cells\":{RADIUS_CELLS},\"direct_seconds\":{direct_s:.4},\"fast_seconds\":{:.6},\"fast_blocks_seconds\":{:.6},\"speedup\":{:.0},\"speedup_blocks\":{:.0},\"relative_l1_difference\":{:.4},\"relative_l1_difference_blocks\":{:.4}}}",
         pioneer.mean_dispersal_m,
         fast_s[0],

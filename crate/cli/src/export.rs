@@ -60,6 +60,6 @@ pub fn export(args: &[String]) -> Result<()> {
     let meta = ExportMeta::from_scenario(&scenario);
     let out_dir = out_dir.unwrap_or(run_dir);
     write_exports(&out_dir, &timeline, &terrain, &meta, &request)?;
-    println!("{CAUTION}");
+    outln!("{CAUTION}");
     Ok(())
 }

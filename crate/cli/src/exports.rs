@@ -152,7 +152,7 @@ impl ExportRequest {
 
 pub fn write_file(path: &Path, bytes: &[u8]) -> Result<()> {
     std::fs::write(path, bytes).with_context(|| format!("writing {}", path.display()))?;
-    println!("wrote {}", path.display());
+    outln!("wrote {}", path.display());
     Ok(())
 }
 
@@ -162,7 +162,7 @@ fn write_timed(path: &Path, make: impl FnOnce() -> Result<Vec<u8>>) -> Result<()
     let bytes = make()?;
     let seconds = started.elapsed().as_secs_f64();
     std::fs::write(path, &bytes).with_context(|| format!("writing {}", path.display()))?;
-    println!("wrote {} ({seconds:.2} s)", path.display());
+    outln!("wrote {} ({seconds:.2} s)", path.display());
     Ok(())
 }
 
@@ -239,7 +239,7 @@ fn write_cells_csv(
     }
     file.flush()
         .with_context(|| format!("writing {}", path.display()))?;
-    println!(
+    outln!(
         "wrote {} ({} cells, {:.2} s)",
         path.display(),
         table.rows_total(),

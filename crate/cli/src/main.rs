@@ -1,5 +1,16 @@
 //! `forefield`: the native command line over the engine (sample data, grid info, static server).
 
+/// `println!` that ends the program quietly when standard output is closed early
+/// (`forefield info F.tif | head`) instead of panicking.
+macro_rules! outln {
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        if let Err(error) = writeln!(std::io::stdout(), $($arg)*) {
+            $crate::stdout_failed(error);
+        }
+    }};
+}
+
 mod bench;
 mod export;
 mod exports;
@@ -15,6 +26,15 @@ use forefield_engine::geotiff::{
     read_geotiff, write_geotiff, write_geotiff_with, SampleType, TiffCompression, WriteOptions,
 };
 use forefield_engine::sample;
+
+/// A closed pipe is the reader's choice to stop: exit 0. Any other write error is reported.
+fn stdout_failed(error: std::io::Error) -> ! {
+    if error.kind() == std::io::ErrorKind::BrokenPipe {
+        std::process::exit(0);
+    }
+    eprintln!("forefield: error: writing to standard output: {error}");
+    std::process::exit(1);
+}
 
 const USAGE: &str = "\
 forefield: glacier retreat and plant colonisation scenarios for planners
@@ -51,7 +71,7 @@ fn main() -> ExitCode {
 
 fn dispatch(args: &[String]) -> Result<()> {
     let Some(command) = args.first() else {
-        println!("{USAGE}");
+        outln!("{USAGE}");
         return Ok(());
     };
     let rest = &args[1..];
@@ -59,12 +79,12 @@ fn dispatch(args: &[String]) -> Result<()> {
         "sample" => write_sample(rest),
         "info" => info(rest),
         "run" if wants_help(rest) => {
-            println!("{}", run::usage());
+            outln!("{}", run::usage());
             Ok(())
         }
         "run" => run::run(rest),
         "export" if wants_help(rest) => {
-            println!("{}", export::usage());
+            outln!("{}", export::usage());
             Ok(())
         }
         "export" => export::export(rest),
@@ -81,7 +101,7 @@ fn dispatch(args: &[String]) -> Result<()> {
             serve::serve(&dir, port)
         }
         "help" | "--help" | "-h" => {
-            println!("{USAGE}");
+            outln!("{USAGE}");
             Ok(())
         }
         other => bail!("unknown command {other:?}\n\n{USAGE}"),
@@ -119,7 +139,7 @@ fn write_sample(args: &[String]) -> Result<()> {
     let write = |name: &str, bytes: Vec<u8>| -> Result<()> {
         let path = out.join(name);
         std::fs::write(&path, bytes).with_context(|| format!("writing {}", path.display()))?;
-        println!("wrote {}", path.display());
+        outln!("wrote {}", path.display());
         Ok(())
     };
     write("valley_dem.tif", write_geotiff(&valley.surface_m))?;
@@ -148,29 +168,29 @@ fn info(args: &[String]) -> Result<()> {
     let bytes = std::fs::read(path).with_context(|| format!("reading {}", path.display()))?;
     let grid = read_geotiff(&bytes, &path.display().to_string())?;
     let g = &grid.geometry;
-    println!("file: {}", path.display());
-    println!(
+    outln!("file: {}", path.display());
+    outln!(
         "size: {} x {} cells ({} cells)",
         g.n_cols,
         g.n_rows,
         g.n_cells()
     );
-    println!("cell size: {} m", g.cell_size_m);
-    println!(
+    outln!("cell size: {} m", g.cell_size_m);
+    outln!(
         "extent: west {} m, east {} m, south {} m, north {} m",
         g.west_m,
         g.east_m(),
         g.south_m(),
         g.north_m
     );
-    println!(
+    outln!(
         "crs: {}",
         g.epsg
             .map_or("not stated".to_string(), |c| format!("EPSG:{c}"))
     );
-    println!("nodata cells: {}", g.n_cells() - grid.n_valid());
+    outln!("nodata cells: {}", g.n_cells() - grid.n_valid());
     if let Some((lo, hi)) = grid.value_range() {
-        println!("values: {lo} to {hi}");
+        outln!("values: {lo} to {hi}");
     }
     Ok(())
 }
@@ -194,6 +214,6 @@ fn relief(args: &[String]) -> Result<()> {
     );
     let png = forefield_engine::render::encode_png(&rgba, dem.n_cols(), dem.n_rows())?;
     std::fs::write(out_path, png).with_context(|| format!("writing {out_path}"))?;
-    println!("wrote {out_path}");
+    outln!("wrote {out_path}");
     Ok(())
 }

@@ -100,7 +100,7 @@ pub fn run(args: &[String]) -> Result<()> {
     .with_context(|| format!("scenario {}", scenario_path.display()))?;
     std::fs::create_dir_all(&out_dir).with_context(|| format!("creating {}", out_dir.display()))?;
     let (ice_cols, ice_rows, ice_cell_m) = run.ice().ice_grid_shape();
-    println!(
+    outln!(
         "{}: {} years from {} on {} x {} cells; ice grid {} x {} cells of {} m; {}",
         scenario.name,
         scenario.n_years,
@@ -135,7 +135,7 @@ pub fn run(args: &[String]) -> Result<()> {
                 let colonised: f64 = v.stage_area_km2[2..].iter().sum();
                 line.push_str(&format!(", plants on {colonised:.3} km2"));
             }
-            println!("{line}");
+            outln!("{line}");
         }
     }
     let timeline = run.finish()?;
@@ -152,7 +152,7 @@ pub fn run(args: &[String]) -> Result<()> {
     )?;
     write_file(&out_dir.join(SCENARIO_FILE), scenario.to_json().as_bytes())?;
     write_exports(&out_dir, &timeline, &terrain, &meta, &request)?;
-    println!("{CAUTION}");
+    outln!("{CAUTION}");
     Ok(())
 }
 
@@ -225,7 +225,7 @@ fn load_inputs(scenario: &Scenario, base: &Path, vegetation: Option<&Path>) -> R
                 .map(|(bytes, name)| (bytes.as_slice(), name.as_str())),
         )?;
         for note in &grids.notes {
-            println!("{note}");
+            outln!("{note}");
         }
         return Ok(IceInputs {
             terrain: grids.surface_m,
@@ -238,7 +238,7 @@ fn load_inputs(scenario: &Scenario, base: &Path, vegetation: Option<&Path>) -> R
     if let Some((bytes, name)) = &vegetation_file {
         let (grid, note) = fit_vegetation(&inputs.terrain.geometry, bytes, name)?;
         if let Some(note) = note {
-            println!("{note}");
+            outln!("{note}");
         }
         inputs.stages = Some(grid);
     }
@@ -319,7 +319,7 @@ fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<IceInputs> {
                 scenario.flow.ice_density_kg_m3,
             )
             .with_context(|| format!("estimating thickness inside {name}"))?;
-            println!(
+            outln!(
                 "thickness from the glacier mask: area {:.3} km2, volume {:.4} km3 \
                  (volume-area scaling: {:.4} km3)",
                 estimate.area_m2 / 1e6,

@@ -15,7 +15,7 @@ pub fn serve(dir: &Path, port: u16) -> Result<()> {
         .with_context(|| format!("serving {}", dir.display()))?;
     let listener = TcpListener::bind(("127.0.0.1", port))
         .with_context(|| format!("listening on 127.0.0.1:{port}"))?;
-    println!(
+    outln!(
         "serving {} at http://127.0.0.1:{port}/ (Ctrl-C to stop)",
         dir.display()
     );

@@ -27,7 +27,7 @@ pub fn write_zone_timelines(
         let seconds = started.elapsed().as_secs_f64();
         let path = out_dir.join(zone.csv_file_name());
         std::fs::write(&path, csv).with_context(|| format!("writing {}", path.display()))?;
-        println!(
+        outln!(
             "wrote {} ({} cells, {seconds:.2} s)",
             path.display(),
             zone.n_cells()
