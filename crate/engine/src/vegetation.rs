@@ -955,7 +955,15 @@ impl VegetationModel {
         let occupied = &self.chunk_occupied[t * n_chunks..(t + 1) * n_chunks];
         let mut source = |row: usize, out: &mut [f32]| {
             let cells = row * n_cols..(row + 1) * n_cols;
-            production_row(setup, local, cover, ages, occupied, cells, out);
+            production_row(
+                setup.age_first_seed_a,
+                local,
+                cover,
+                ages,
+                occupied,
+                cells,
+                out,
+            );
             let before = if row > 0 {
                 row_production[row - 1]
             } else {
@@ -1021,29 +1029,28 @@ impl VegetationModel {
             // The source column: where the row's running production reaches the target.
             let mut left = (target - before) as f32;
             let mut col = n_cols - 1;
-            let first = t * n + row * n_cols;
-            let threshold = setup.age_first_seed_a;
+            let cover = &self.state.cover[t * n..(t + 1) * n];
+            let ages = &self.state.age_a[t * n..(t + 1) * n];
             let occupied = &self.chunk_occupied[t * n_chunks..(t + 1) * n_chunks];
-            let mut c = 0;
-            'search: while c < n_cols {
-                let chunk = (first + c - t * n) / CHUNK;
-                let end = ((chunk + 1) * CHUNK + t * n - first).min(n_cols);
+            let cells = row * n_cols..(row + 1) * n_cols;
+            let mut start = cells.start;
+            'search: while start < cells.end {
+                let chunk = start / CHUNK;
+                let end = ((chunk + 1) * CHUNK).min(cells.end);
                 // Chunks without the type produce nothing: skipping them leaves `left` as
                 // it is.
                 if occupied[chunk] {
-                    for (k, (&cover, &age)) in self.state.cover[first + c..first + end]
-                        .iter()
-                        .zip(&self.state.age_a[first + c..first + end])
-                        .enumerate()
+                    for (i, (&c, &age)) in
+                        cover[start..end].iter().zip(&ages[start..end]).enumerate()
                     {
-                        left -= if age >= threshold { cover * local } else { 0.0 };
+                        left -= seed_of(c, age, setup.age_first_seed_a, local);
                         if left <= 0.0 {
-                            col = c + k;
+                            col = start + i - cells.start;
                             break 'search;
                         }
                     }
                 }
-                c = end;
+                start = end;
             }
             let distance =
                 setup.long_distance_kernel.sample_distance_m(&mut self.rng) / self.cell_size_m;
@@ -1058,12 +1065,23 @@ impl VegetationModel {
     }
 }
 
+/// Seed a cell sends out in a year: its cover times seed per cover, once the type is old
+/// enough to seed.
+#[inline]
+fn seed_of(cover: f32, age_a: f32, first_seed_age_a: f32, per_cover: f32) -> f32 {
+    if age_a >= first_seed_age_a {
+        cover * per_cover
+    } else {
+        0.0
+    }
+}
+
 /// Seed leaving each of the cells `cells` of one type's `cover` and `ages` layers: cover
 /// times seed per cover where the type is old enough to seed. Chunks the type is absent
 /// from (`occupied`, one flag a chunk) give zeros without reading the layers, which on
 /// large grids are far beyond the caches.
 fn production_row(
-    setup: &TypeSetup,
+    first_seed_age_a: f32,
     per_cover: f32,
     cover: &[f32],
     ages: &[f32],
@@ -1071,7 +1089,6 @@ fn production_row(
     cells: std::ops::Range<usize>,
     out: &mut [f32],
 ) {
-    let threshold = setup.age_first_seed_a;
     let mut start = cells.start;
     while start < cells.end {
         let chunk = start / CHUNK;
@@ -1083,7 +1100,7 @@ fn production_row(
                 .zip(&cover[start..end])
                 .zip(&ages[start..end])
             {
-                *p = if age >= threshold { c * per_cover } else { 0.0 };
+                *p = seed_of(c, age, first_seed_age_a, per_cover);
             }
         } else {
             out.fill(0.0);
