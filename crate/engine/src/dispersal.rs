@@ -1217,7 +1217,8 @@ mod tests {
     fn coarse_levels_keep_a_sources_mass_and_place() {
         // Full weighting keeps a lone source's centroid where it is, whichever fine cell of
         // its coarse cell it sits in; block sums would move it to the coarse centre, half a
-        // block off. Even and odd widths take the paired and the general transfer.
+        // block off (the centroid property of multigrid full weighting; common practice, no
+        // source). Even and odd widths take the paired and the general transfer.
         let k = Kernel::from_mean(KernelFamily::NegativeExponential, 100.0, 1.0).expect("valid");
         for (n_cols, n_rows) in [(128, 128), (127, 125)] {
             let op = DispersalOperator::new(&k, 10.0, n_cols, n_rows, 2, Boundary::Absorbing);
