@@ -49,14 +49,15 @@ pub fn export_run() -> &'static ExportRun {
         let ice = sample_grid("valley_ice_thickness.tif");
         let stages = sample_grid("valley_vegetation.tif");
         let bed = bed_from_surface(&dem, &ice).unwrap();
-        let mut run = RecordedRun::with_plants(&bed, &ice, &scenario, Some(&stages), |name| {
-            Err(format!("{name}: no files in this check"))
-        })
-        .unwrap();
+        let mut run =
+            RecordedRun::with_plants(&bed, &ice, None, &scenario, Some(&stages), |name| {
+                Err(format!("{name}: no files in this check"))
+            })
+            .unwrap();
         while run.step_year().is_some() {}
         let timeline = run.finish().unwrap();
         ExportRun {
-            meta: ExportMeta::from_scenario(&scenario),
+            meta: ExportMeta::for_run(&scenario, &timeline),
             scenario,
             dem,
             timeline,

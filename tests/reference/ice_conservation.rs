@@ -275,7 +275,7 @@ fn identical_inputs_and_seed_give_identical_results() {
         seed: 12345,
         ..Scenario::default()
     };
-    scenario.mass_balance.ela_m = 3250.0;
+    scenario.mass_balance.ela_m = Some(3250.0);
     let run = |scenario: &Scenario| {
         let mut simulation = IceSimulation::new(&bed, &ice, scenario).expect("valid inputs");
         while simulation.step_year().is_some() {
@@ -309,6 +309,7 @@ fn transfer_between_the_grids_keeps_the_volume() {
     let (bed, ice) = invented_valley(120);
     let scenario = Scenario {
         n_years: 1,
+        relaxation_years: 0,
         ..Scenario::default()
     };
     let simulation = IceSimulation::new(&bed, &ice, &scenario).expect("valid");

@@ -30,24 +30,24 @@ fn default_sensitivity_is_bracketed_by_lapse_rate_and_energy_balance_values() {
 fn warming_shifts_the_zero_balance_altitude_by_the_sensitivity() {
     for sensitivity in [87.5, 120.0, 153.85] {
         let params = MassBalanceParams {
-            ela_m: 2800.0,
+            ela_m: Some(2800.0),
             ela_sensitivity_m_per_k: sensitivity,
             gradient_above_ela_mwe_per_100m: Some(0.3),
             ..MassBalanceParams::default()
         };
         let base = params
-            .profile_for_anomaly(0.0, 910.0)
+            .profile_at_ela(params.ela_for_anomaly_m(2800.0, 0.0), 910.0)
             .zero_balance_altitude_m(0.0, 6000.0)
             .expect("ELA");
         for anomaly in [-0.5, 1.0, 2.5] {
             let shifted = params
-                .profile_for_anomaly(anomaly, 910.0)
+                .profile_at_ela(params.ela_for_anomaly_m(2800.0, anomaly), 910.0)
                 .zero_balance_altitude_m(0.0, 6000.0)
                 .expect("ELA");
             assert!(((shifted - base) - sensitivity * anomaly).abs() < 1e-6);
         }
         let one_kelvin = params
-            .profile_for_anomaly(1.0, 910.0)
+            .profile_at_ela(params.ela_for_anomaly_m(2800.0, 1.0), 910.0)
             .zero_balance_altitude_m(0.0, 6000.0)
             .expect("ELA")
             - base;
@@ -107,7 +107,8 @@ fn simulated_ela_follows_the_anomaly() {
         assert!((row.temperature_anomaly_c - 1.0).abs() < 1e-12);
         assert!(
             (row.ela_m
-                - (scenario.mass_balance.ela_m + scenario.mass_balance.ela_sensitivity_m_per_k))
+                - (simulation.calibration().ela0_m
+                    + scenario.mass_balance.ela_sensitivity_m_per_k))
                 .abs()
                 < 1e-9
         );
@@ -126,7 +127,7 @@ fn volcanic_pulse_lowers_the_ela_briefly_and_barely_changes_the_glacier() {
         n_years: 30,
         ..Scenario::default()
     };
-    scenario.mass_balance.ela_m = 3250.0;
+    scenario.mass_balance.ela_m = Some(3250.0);
     scenario.mass_balance.ela_sensitivity_m_per_k = LAPSE_RATE_ELA_SENSITIVITY_M_PER_K;
     let run = |scenario: &Scenario| {
         let mut simulation = IceSimulation::new(&bed, &ice, scenario).expect("valid");

@@ -57,7 +57,7 @@ pub fn export(args: &[String]) -> Result<()> {
     let text = String::from_utf8(read(SCENARIO_FILE)?)
         .with_context(|| format!("{} is not UTF-8 text", SCENARIO_FILE))?;
     let scenario = Scenario::from_json(&text).with_context(|| SCENARIO_FILE.to_string())?;
-    let meta = ExportMeta::from_scenario(&scenario);
+    let meta = ExportMeta::for_run(&scenario, &timeline);
     let out_dir = out_dir.unwrap_or(run_dir);
     write_exports(&out_dir, &timeline, &terrain, &meta, &request)?;
     outln!("{CAUTION}");

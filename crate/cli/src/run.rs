@@ -16,7 +16,7 @@ use forefield_engine::grid::Grid;
 use forefield_engine::ice_outline::thickness_from_outline;
 use forefield_engine::outline::outline_mask;
 use forefield_engine::recorded_run::RecordedRun;
-use forefield_engine::run_inputs::{fit_vegetation, read_run_inputs, IceInput};
+use forefield_engine::run_inputs::{fit_domain, fit_vegetation, read_run_inputs, IceInput};
 use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation};
 
@@ -89,13 +89,28 @@ pub fn run(args: &[String]) -> Result<()> {
         thickness,
         stages,
     } = load_inputs(&scenario, base, vegetation.as_deref())?;
+    let domain = match scenario.grids.glacier_domain.as_deref() {
+        Some(name) => {
+            let (grid, note) = fit_domain(&terrain.geometry, &read_bytes(&base.join(name))?, name)?;
+            if let Some(note) = note {
+                outln!("{note}");
+            }
+            Some(grid)
+        }
+        None => None,
+    };
     let mut run = if ice_only {
-        RecordedRun::ice_only(&bed, &thickness, &scenario)
+        RecordedRun::ice_only(&bed, &thickness, domain.as_ref(), &scenario)
     } else {
         // Disturbance polygons named in the scenario lie beside it, like its grids.
-        RecordedRun::with_plants(&bed, &thickness, &scenario, stages.as_ref(), |name| {
-            std::fs::read(base.join(name)).map_err(|e| e.to_string())
-        })
+        RecordedRun::with_plants(
+            &bed,
+            &thickness,
+            domain.as_ref(),
+            &scenario,
+            stages.as_ref(),
+            |name| std::fs::read(base.join(name)).map_err(|e| e.to_string()),
+        )
     }
     .with_context(|| format!("scenario {}", scenario_path.display()))?;
     std::fs::create_dir_all(&out_dir).with_context(|| format!("creating {}", out_dir.display()))?;
@@ -139,7 +154,7 @@ pub fn run(args: &[String]) -> Result<()> {
         }
     }
     let timeline = run.finish()?;
-    let meta = ExportMeta::from_scenario(&scenario);
+    let meta = ExportMeta::for_run(&scenario, &timeline);
     write_file(
         &out_dir.join("summary.csv"),
         summary_csv(run.rows(), timeline.type_names(), &meta).as_bytes(),

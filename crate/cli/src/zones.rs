@@ -62,6 +62,7 @@ mod tests {
             scenario_name: "test".into(),
             seed: 1,
             engine_version: "0",
+            run_notes: Vec::new(),
         };
         let dir = std::env::temp_dir().join(format!("forefield-zone-{}", std::process::id()));
         std::fs::create_dir_all(&dir).unwrap();

@@ -51,7 +51,19 @@ impl CoupledSimulation {
         scenario: &Scenario,
         initial_vegetation: Option<&Grid>,
     ) -> Result<CoupledSimulation, CoupledError> {
-        let ice = IceSimulation::new(bed_m, ice_thickness_m, scenario)?;
+        Self::with_domain(bed_m, ice_thickness_m, None, scenario, initial_vegetation)
+    }
+
+    /// As [`CoupledSimulation::new`], with a glacier domain grid (see
+    /// [`IceSimulation::with_domain`]).
+    pub fn with_domain(
+        bed_m: &Grid,
+        ice_thickness_m: &Grid,
+        domain: Option<&Grid>,
+        scenario: &Scenario,
+        initial_vegetation: Option<&Grid>,
+    ) -> Result<CoupledSimulation, CoupledError> {
+        let ice = IceSimulation::with_domain(bed_m, ice_thickness_m, domain, scenario)?;
         let geometry = bed_m.geometry;
         let stages = match initial_vegetation {
             Some(grid) => {

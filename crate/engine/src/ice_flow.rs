@@ -244,6 +244,16 @@ pub(crate) fn positive_part(x: f64) -> f64 {
     }
 }
 
+/// `x.min(0.0)` as a compare and select (see [`positive_part`]).
+#[inline(always)]
+pub(crate) fn negative_part(x: f64) -> f64 {
+    if x < 0.0 {
+        x
+    } else {
+        0.0
+    }
+}
+
 fn sum_lanes(values: &[f64]) -> f64 {
     let mut lanes = [0.0_f64; 4];
     let chunks = values.chunks_exact(4);
@@ -296,6 +306,9 @@ pub struct SiaStepper {
     bed_m: Vec<f64>,
     /// 1 where ice may lie, 0 at closed cells (no data); multiplies fluxes and balance.
     open: Vec<f64>,
+    /// Share of each cell's accumulation the balance keeps (the glacier domain, 0 to 1;
+    /// 1 everywhere unless set). Ablation applies everywhere ice lies.
+    domain: Vec<f64>,
     surface_m: Vec<f64>,
     /// Corner (r, c), between cells r, r+1 and c, c+1, at `(r + 1) * (n_cols + 1) + c + 1`:
     /// a padding row and column hold the corners north and west of the grid.
@@ -351,6 +364,7 @@ impl SiaStepper {
             constants,
             bed_m,
             open: open.iter().map(|&o| if o { 1.0 } else { 0.0 }).collect(),
+            domain: vec![1.0; n_cells],
             surface_m: vec![0.0; n_cells],
             corner_diffusivity: vec![0.0; (n_rows + 1) * (n_cols + 1)],
             flux_east: vec![0.0; n_rows * (n_cols + 1)],
@@ -374,6 +388,32 @@ impl SiaStepper {
 
     pub fn bed_m(&self) -> &[f64] {
         &self.bed_m
+    }
+
+    /// Sets the share of accumulation each cell keeps (the glacier domain, values 0 to 1).
+    ///
+    /// # Panics
+    /// If `domain` does not have one value per cell (a programming error).
+    pub fn set_domain(&mut self, domain: &[f64]) {
+        assert_eq!(
+            domain.len(),
+            self.domain.len(),
+            "domain must cover the ice grid"
+        );
+        for (d, &v) in self.domain.iter_mut().zip(domain) {
+            *d = v.clamp(0.0, 1.0);
+        }
+    }
+
+    /// Share of accumulation each cell keeps.
+    pub fn domain(&self) -> &[f64] {
+        &self.domain
+    }
+
+    /// Surface elevation of a thickness field, m (bed plus thickness).
+    pub fn surface_of(&self, thickness_m: &[f64], surface_m: &mut Vec<f64>) {
+        surface_m.clear();
+        surface_m.extend(self.bed_m.iter().zip(thickness_m).map(|(&b, &h)| b + h));
     }
 
     /// True where ice may lie.
@@ -401,6 +441,29 @@ impl SiaStepper {
         duration_a: f64,
         balance: &LinearBalance,
     ) -> AdvanceReport {
+        self.advance_with(thickness_m, duration_a, balance, None)
+    }
+
+    /// As [`SiaStepper::advance`], with the accumulation given per cell (m of ice per year,
+    /// e.g. after snow redistribution) in place of the profile's positive part times the
+    /// domain; the profile's ablation still follows the surface through the year.
+    ///
+    /// # Panics
+    /// If a slice does not have one value per cell (a programming error).
+    pub fn advance_with(
+        &mut self,
+        thickness_m: &mut [f64],
+        duration_a: f64,
+        balance: &LinearBalance,
+        accumulation_m_per_a: Option<&[f64]>,
+    ) -> AdvanceReport {
+        if let Some(acc) = accumulation_m_per_a {
+            assert_eq!(
+                acc.len(),
+                self.bed_m.len(),
+                "accumulation must cover the ice grid"
+            );
+        }
         assert_eq!(
             thickness_m.len(),
             self.bed_m.len(),
@@ -409,9 +472,14 @@ impl SiaStepper {
         let (n_cols, n_rows) = (self.n_cols, self.n_rows);
         let mut report = AdvanceReport::default();
         // Cells outside the ice that gain ice this year; their surface is the bed there.
-        let gaining_box = bounding_box(n_cols, n_rows, |i| {
-            self.open[i] > 0.0 && balance.rate_m_per_a(self.bed_m[i]) > 0.0
-        });
+        let gaining_box = match accumulation_m_per_a {
+            Some(acc) => bounding_box(n_cols, n_rows, |i| self.open[i] > 0.0 && acc[i] > 0.0),
+            None => bounding_box(n_cols, n_rows, |i| {
+                self.open[i] > 0.0
+                    && self.domain[i] > 0.0
+                    && balance.rate_m_per_a(self.bed_m[i]) > 0.0
+            }),
+        };
         let mut ice_box = self.ice_box(thickness_m);
         let mut elapsed_a = 0.0;
         while elapsed_a < duration_a {
@@ -432,7 +500,8 @@ impl SiaStepper {
             report.max_step_over_limit = report.max_step_over_limit.max(dt_a / limit_a);
             self.compute_fluxes(region, dt_a);
             self.limit_outflow(thickness_m, region);
-            let (added_m, new_box) = self.apply(thickness_m, region, dt_a, balance);
+            let (added_m, new_box) =
+                self.apply(thickness_m, region, dt_a, balance, accumulation_m_per_a);
             report.balance_volume_m3 += added_m * self.cell_size_m * self.cell_size_m;
             report.cell_updates += region.n_cells() as u64;
             report.substeps += 1;
@@ -579,6 +648,7 @@ impl SiaStepper {
         region: CellBox,
         dt_a: f64,
         balance: &LinearBalance,
+        accumulation_m_per_a: Option<&[f64]>,
     ) -> (f64, Option<CellBox>) {
         let n_cols = self.n_cols;
         let n_rows = self.n_rows;
@@ -614,6 +684,8 @@ impl SiaStepper {
             }..][..n];
             let surface = &self.surface_m[cells..][..n];
             let open = &self.open[cells..][..n];
+            let domain = &self.domain[cells..][..n];
+            let accumulation = accumulation_m_per_a.map(|acc| &acc[cells..][..n]);
             let h = &mut thickness_m[cells..][..n];
             let added = &mut self.row_scratch[..n];
             for k in 0..n {
@@ -623,7 +695,13 @@ impl SiaStepper {
                     + limited(south[k], scale_here, scale_south[k])
                     - limited(north[k], scale_north[k], scale_here);
                 let after_flow = h[k] - divergence;
-                let rate = balance.rate_m_per_a(surface[k]) * open[k];
+                // Accumulation only inside the domain; where the domain is 1 this is the
+                // profile's rate exactly (one of the two parts is zero).
+                let local = balance.rate_m_per_a(surface[k]);
+                let rate = match accumulation {
+                    None => (negative_part(local) + positive_part(local) * domain[k]) * open[k],
+                    Some(acc) => negative_part(local) * open[k] + acc[k],
+                };
                 let new_h = positive_part(after_flow + rate * dt_a);
                 added[k] = new_h - after_flow;
                 h[k] = new_h;

@@ -10,6 +10,12 @@
 //! thickness on flat ice. Bahr, Pfeffer & Kaser (2015, Rev. Geophys. 53:95-140) stress that
 //! the scaling holds for ensembles of glaciers, not one glacier: the scaling volume is a
 //! plausibility check, not a target.
+//!
+//! Near the margin the slope rule alone would leave a cliff (161 m at the edge of ice on a
+//! 5 degree slope): there the thickness is capped by Nye's (1952) perfectly plastic profile
+//! over a flat bed, h = sqrt(2 tau x / (rho g)), x the distance to the outline (half-way
+//! between the cell centres inside and outside it), found by an exact Euclidean distance
+//! transform (Felzenszwalb & Huttenlocher 2012, Theory Comput. 8:415-428).
 
 use serde::{Deserialize, Serialize};
 use thiserror::Error;
@@ -141,6 +147,9 @@ pub fn thickness_from_outline(
     let dx = geometry.cell_size_m;
     let radius = (params.smoothing_radius_m / dx).round() as usize;
     let smoothed = box_mean(surface_m, radius);
+    let inside_mask: Vec<bool> = (0..n_cells).map(inside).collect();
+    let distance_cells = squared_distance_to_outside(&inside_mask, n_cols, n_rows);
+    let rho_g = ice_density_kg_m3 * GRAVITY_M_S2;
     let mut thickness = vec![0.0_f32; n_cells];
     let (mut area_m2, mut volume_m3) = (0.0, 0.0);
     for row in 0..n_rows {
@@ -157,7 +166,11 @@ pub fn thickness_from_outline(
             let dz_dy = (smoothed[south * n_cols + col] - smoothed[north * n_cols + col])
                 / ((south - north).max(1) as f64 * dx);
             let slope = libm::atan(libm::hypot(dz_dx, dz_dy));
-            let h = params.thickness_for_slope_m(slope, ice_density_kg_m3);
+            let margin_m = (distance_cells[idx].sqrt() - 0.5) * dx;
+            let nye_m = (2.0 * params.basal_shear_stress_pa * margin_m / rho_g).sqrt();
+            let h = params
+                .thickness_for_slope_m(slope, ice_density_kg_m3)
+                .min(nye_m);
             thickness[idx] = h as f32;
             area_m2 += geometry.cell_area_m2();
             volume_m3 += h * geometry.cell_area_m2();
@@ -177,6 +190,74 @@ pub fn thickness_from_outline(
         volume_m3,
         scaling_volume_m3: scaling_volume_m3(area_m2),
     })
+}
+
+/// Squared distance, in cells, from each cell centre to the nearest centre of a cell outside
+/// the mask (very large where there is none), by two passes of the exact 1-D transform.
+fn squared_distance_to_outside(inside: &[bool], n_cols: usize, n_rows: usize) -> Vec<f64> {
+    const FAR: f64 = 1e20;
+    let mut d: Vec<f64> = inside.iter().map(|&i| if i { FAR } else { 0.0 }).collect();
+    let n = n_cols.max(n_rows);
+    let (mut f, mut out) = (vec![0.0; n], vec![0.0; n]);
+    let (mut v, mut z) = (vec![0usize; n], vec![0.0; n + 1]);
+    for col in 0..n_cols {
+        for row in 0..n_rows {
+            f[row] = d[row * n_cols + col];
+        }
+        distance_1d(&f[..n_rows], &mut out[..n_rows], &mut v, &mut z);
+        for row in 0..n_rows {
+            d[row * n_cols + col] = out[row];
+        }
+    }
+    for row in 0..n_rows {
+        f[..n_cols].copy_from_slice(&d[row * n_cols..(row + 1) * n_cols]);
+        distance_1d(&f[..n_cols], &mut out[..n_cols], &mut v, &mut z);
+        d[row * n_cols..(row + 1) * n_cols].copy_from_slice(&out[..n_cols]);
+    }
+    d
+}
+
+/// The lower envelope of parabolas (q - p)^2 + f(p): Felzenszwalb & Huttenlocher (2012).
+fn distance_1d(f: &[f64], out: &mut [f64], v: &mut [usize], z: &mut [f64]) {
+    let n = f.len();
+    if n == 0 {
+        return;
+    }
+    let sq = |q: usize| (q * q) as f64;
+    let mut k = 0;
+    v[0] = 0;
+    z[0] = f64::NEG_INFINITY;
+    z[1] = f64::INFINITY;
+    for q in 1..n {
+        loop {
+            let p = v[k];
+            let s = ((f[q] + sq(q)) - (f[p] + sq(p))) / (2.0 * (q - p) as f64);
+            if s <= z[k] && k > 0 {
+                k -= 1;
+                continue;
+            }
+            if s <= z[k] {
+                // k == 0 and the new parabola is lower everywhere: it replaces the first.
+                v[0] = q;
+                z[1] = f64::INFINITY;
+            } else {
+                k += 1;
+                v[k] = q;
+                z[k] = s;
+                z[k + 1] = f64::INFINITY;
+            }
+            break;
+        }
+    }
+    let mut k = 0;
+    for (q, o) in out.iter_mut().enumerate() {
+        while z[k + 1] < q as f64 {
+            k += 1;
+        }
+        let p = v[k];
+        let dq = q as f64 - p as f64;
+        *o = dq * dq + f[p];
+    }
 }
 
 /// Mean of the valid cells in a (2r+1)^2 window around each cell, by a summed-area table
@@ -237,6 +318,64 @@ mod tests {
         let grid = Grid::from_values(g, (0..81).map(|i| (i % 9) as f32 * 2.0).collect());
         let mean = box_mean(&grid, 2);
         assert!((mean[4 * 9 + 4] - 8.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn distance_transform_matches_brute_force() {
+        let (n_cols, n_rows) = (13, 9);
+        let inside: Vec<bool> = (0..n_cols * n_rows)
+            .map(|i| {
+                let (r, c) = (i / n_cols, i % n_cols);
+                !(r == 0 || (r == 5 && c == 7) || (c == 12 && r > 3))
+            })
+            .collect();
+        let d = squared_distance_to_outside(&inside, n_cols, n_rows);
+        for (i, &found) in d.iter().enumerate() {
+            let (r, c) = ((i / n_cols) as f64, (i % n_cols) as f64);
+            let brute = (0..n_cols * n_rows)
+                .filter(|&j| !inside[j])
+                .map(|j| {
+                    let (rj, cj) = ((j / n_cols) as f64, (j % n_cols) as f64);
+                    (r - rj).powi(2) + (c - cj).powi(2)
+                })
+                .fold(f64::INFINITY, f64::min);
+            assert_eq!(found, brute, "cell {i}");
+        }
+    }
+
+    /// Nye (1952): h = sqrt(2 tau x / (rho g)) is 47.2 m at 100 m from the margin for
+    /// 100 kPa and 917 kg m^-3 [C]; far inside, the slope rule (161 m on 5 degrees) holds.
+    #[test]
+    fn the_margin_follows_nye_and_the_interior_the_slope_rule() {
+        let (n, dx) = (60, 40.0);
+        let g = GridGeometry {
+            n_cols: n,
+            n_rows: n,
+            cell_size_m: dx,
+            west_m: 0.0,
+            north_m: 0.0,
+            epsg: None,
+        };
+        let tan5 = libm::tan(5f64.to_radians());
+        let surface = Grid::from_values(
+            g,
+            (0..n * n)
+                .map(|i| (3000.0 - (i % n) as f64 * dx * tan5) as f32)
+                .collect(),
+        );
+        // Ice everywhere but the first three rows (north).
+        let mask: Vec<bool> = (0..n * n).map(|i| i / n >= 3).collect();
+        let estimate =
+            thickness_from_outline(&surface, &mask, &PlasticityParams::default(), 917.0).unwrap();
+        // Row 5 lies 3 cells from row 2, outside: the margin is 2.5 cells = 100 m away.
+        let h = estimate.ice_thickness_m.values[5 * n + n / 2];
+        assert!((f64::from(h) - 47.15).abs() < 0.05, "{h}");
+        let slope_rule = 100e3 / (0.8 * 917.0 * 9.81 * libm::sin(5f64.to_radians()));
+        let deep = estimate.ice_thickness_m.values[40 * n + n / 2];
+        assert!(
+            (f64::from(deep) - slope_rule).abs() < 0.5,
+            "{deep} {slope_rule}"
+        );
     }
 
     #[test]

@@ -11,6 +11,11 @@
 //! brings more snowfall; an energy-balance model gives 87.5 m/K (Ambach 1989, J. Glaciol.).
 //! 120 m/K lies between the two, near their mean (121 m/K), inside the 90-170 m/K range of
 //! the literature (range from memory).
+//!
+//! The ELA at zero anomaly is either given (`ela_m`) or calibrated on the starting glacier
+//! (see `ela_calibration`); the balance adds ice only inside the glacier domain (see
+//! `glacier_domain`), and snow falling on steep ground slides to where it can lie (see
+//! `snow_redistribution`).
 
 use serde::{Deserialize, Serialize};
 
@@ -25,13 +30,45 @@ pub const LAPSE_RATE_ELA_SENSITIVITY_M_PER_K: f64 = 1000.0 / 6.5;
 /// ELA shift per kelvin from an energy-balance model (Ambach 1989, J. Glaciol.), m/K.
 pub const ENERGY_BALANCE_ELA_SENSITIVITY_M_PER_K: f64 = 87.5;
 
+/// Accumulation-area ratio of a glacier in balance (Dyurgerov, Meier & Bahr 2009, J. Glaciol.
+/// 55(192), from a global set of measured balances; value from memory).
+pub const DEFAULT_BALANCED_AAR: f64 = 0.58;
+
+/// Where the surface balance may add ice.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum DomainRule {
+    /// The starting ice and the ground whose D8 flow path reaches it.
+    Drainage,
+    /// Every cell of the grid.
+    WholeGrid,
+}
+
 /// Parameters of the linear balance profile (the `mass_balance` block of a scenario).
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct MassBalanceParams {
-    /// Equilibrium-line altitude at zero anomaly, m above sea level, 0 to 7000. Default 2900 m;
-    /// set it for the terrain: all ice-free ground above the ELA gains ice.
-    pub ela_m: f64,
+    /// Equilibrium-line altitude at zero anomaly, m above sea level, 0 to 7000. Default
+    /// `null`: calibrated on the starting glacier (see `calibration_target_mwe_per_a`).
+    pub ela_m: Option<f64>,
+    /// Glacier-wide mean balance the calibrated ELA gives on the starting glacier, m water
+    /// equivalent per year, -5 to 2 (e.g. a measured geodetic rate). `null`: the ELA where
+    /// the accumulation-area ratio is `balanced_aar`. Only with `ela_m` null.
+    pub calibration_target_mwe_per_a: Option<f64>,
+    /// Accumulation-area ratio of a glacier in balance, 0.2 to 0.9. Default 0.58 (Dyurgerov,
+    /// Meier & Bahr 2009, J. Glaciol. 55(192); value from memory).
+    pub balanced_aar: f64,
+    /// Where the balance may add ice: `drainage` (default: the starting ice and the ground
+    /// draining into it), or `whole_grid` (every cell; ice-free ground above the ELA grows
+    /// ice). A domain grid named in `grids.glacier_domain` replaces either.
+    pub domain: DomainRule,
+    /// Snow falling on steep ground slides down to where it can lie (Gruber 2007). Default on.
+    pub snow_redistribution: bool,
+    /// Slope at and above which no snow stays, degrees, 10 to 89. Default 50.
+    pub snow_limit_slope_deg: f64,
+    /// Most snow a level cell keeps in a year, m water equivalent, 0.1 to 20. Default 4;
+    /// it falls linearly to zero at the limit slope.
+    pub snow_holding_depth_mwe: f64,
     /// ELA rise per degree of warming, m/K, 0 to 300. Default 120 (see the module notes).
     pub ela_sensitivity_m_per_k: f64,
     /// Balance gradient below the ELA, m water equivalent per year per 100 m, 0.01 to 3.
@@ -47,7 +84,13 @@ pub struct MassBalanceParams {
 impl Default for MassBalanceParams {
     fn default() -> Self {
         MassBalanceParams {
-            ela_m: 2900.0,
+            ela_m: None,
+            calibration_target_mwe_per_a: None,
+            balanced_aar: DEFAULT_BALANCED_AAR,
+            domain: DomainRule::Drainage,
+            snow_redistribution: true,
+            snow_limit_slope_deg: 50.0,
+            snow_holding_depth_mwe: 4.0,
             ela_sensitivity_m_per_k: 120.0,
             gradient_below_ela_mwe_per_100m: 0.7,
             gradient_above_ela_mwe_per_100m: None,
@@ -59,7 +102,39 @@ impl Default for MassBalanceParams {
 impl MassBalanceParams {
     /// Checks every number against its documented range.
     pub fn validate(&self) -> Result<(), ScenarioError> {
-        check_range("mass_balance.ela_m", self.ela_m, 0.0, 7000.0, "m")?;
+        if let Some(ela) = self.ela_m {
+            check_range("mass_balance.ela_m", ela, 0.0, 7000.0, "m")?;
+        }
+        if let Some(target) = self.calibration_target_mwe_per_a {
+            check_range(
+                "mass_balance.calibration_target_mwe_per_a",
+                target,
+                -5.0,
+                2.0,
+                "m w.e./a",
+            )?;
+            if self.ela_m.is_some() {
+                return Err(ScenarioError::Invalid {
+                    field: "mass_balance.calibration_target_mwe_per_a".to_string(),
+                    problem: "give ela_m or a calibration target, not both".to_string(),
+                });
+            }
+        }
+        check_range("mass_balance.balanced_aar", self.balanced_aar, 0.2, 0.9, "")?;
+        check_range(
+            "mass_balance.snow_limit_slope_deg",
+            self.snow_limit_slope_deg,
+            10.0,
+            89.0,
+            "degrees",
+        )?;
+        check_range(
+            "mass_balance.snow_holding_depth_mwe",
+            self.snow_holding_depth_mwe,
+            0.1,
+            20.0,
+            "m w.e.",
+        )?;
         check_range(
             "mass_balance.ela_sensitivity_m_per_k",
             self.ela_sensitivity_m_per_k,
@@ -93,13 +168,13 @@ impl MassBalanceParams {
         Ok(())
     }
 
-    /// ELA for a temperature anomaly, m.
-    pub fn ela_for_anomaly_m(&self, anomaly_c: f64) -> f64 {
-        self.ela_m + self.ela_sensitivity_m_per_k * anomaly_c
+    /// ELA for a temperature anomaly, m, from the ELA at zero anomaly `ela0_m`.
+    pub fn ela_for_anomaly_m(&self, ela0_m: f64, anomaly_c: f64) -> f64 {
+        ela0_m + self.ela_sensitivity_m_per_k * anomaly_c
     }
 
-    /// The balance profile for one year, in metres of ice per year.
-    pub fn profile_for_anomaly(&self, anomaly_c: f64, ice_density_kg_m3: f64) -> LinearBalance {
+    /// The balance profile about the ELA `ela_m`, in metres of ice per year.
+    pub fn profile_at_ela(&self, ela_m: f64, ice_density_kg_m3: f64) -> LinearBalance {
         let ice_per_we = WATER_DENSITY_KG_M3 / ice_density_kg_m3;
         let below = self.gradient_below_ela_mwe_per_100m / 100.0 * ice_per_we;
         let above = self
@@ -108,7 +183,7 @@ impl MassBalanceParams {
             / 100.0
             * ice_per_we;
         LinearBalance {
-            ela_m: self.ela_for_anomaly_m(anomaly_c),
+            ela_m,
             gradient_below_per_a: below,
             gradient_above_per_a: above,
             max_accumulation_m_per_a: self.max_accumulation_mwe_per_a * ice_per_we,
@@ -138,6 +213,13 @@ impl LinearBalance {
         gradient_above_per_a: 0.0,
         max_accumulation_m_per_a: 0.0,
     };
+
+    /// Ablation (the negative part of the balance) at `surface_m`, m ice per year, <= 0.
+    #[inline]
+    pub fn ablation_m_per_a(&self, surface_m: f64) -> f64 {
+        let dz = surface_m - self.ela_m;
+        self.gradient_below_per_a * if dz < 0.0 { dz } else { 0.0 }
+    }
 
     /// Balance rate at surface elevation `surface_m`, metres of ice per year.
     #[inline]
@@ -184,7 +266,7 @@ mod tests {
             gradient_above_ela_mwe_per_100m: Some(0.35),
             ..Default::default()
         };
-        let b = params.profile_for_anomaly(0.0, 910.0);
+        let b = params.profile_at_ela(2900.0, 910.0);
         // 0.7 m w.e. per 100 m below the ELA, in ice: 0.7 * 1000/910 per 100 m.
         let expected = -3.0 * 0.7 * 1000.0 / 910.0;
         assert!((b.rate_m_per_a(2600.0) - expected).abs() < 1e-12);

@@ -10,7 +10,7 @@ use crate::grid::Grid;
 use crate::scenario::Scenario;
 use crate::simulation::{IceSimulation, SimulationError, YearSummary};
 use crate::timeline::{
-    Timeline, TimelineRecorder, DEFAULT_COVER_BUDGET_BYTES, DEFAULT_FRAME_BUDGET_BYTES,
+    RunStart, Timeline, TimelineRecorder, DEFAULT_COVER_BUDGET_BYTES, DEFAULT_FRAME_BUDGET_BYTES,
     DEFAULT_STAGE_BUDGET_BYTES,
 };
 use crate::vegetation::VegetationYearSummary;
@@ -67,7 +67,7 @@ fn covers_of(coupled: &CoupledSimulation) -> Vec<&[f32]> {
         .collect()
 }
 
-fn ice_recorder(simulation: &IceSimulation) -> TimelineRecorder {
+fn ice_recorder(simulation: &IceSimulation, bed_m: &Grid) -> TimelineRecorder {
     TimelineRecorder::new(
         simulation.geometry().n_cols,
         simulation.start_year(),
@@ -75,6 +75,11 @@ fn ice_recorder(simulation: &IceSimulation) -> TimelineRecorder {
         simulation.ice_thickness_m(),
         DEFAULT_FRAME_BUDGET_BYTES,
     )
+    .with_start(RunStart {
+        bed_m: bed_m.values.clone(),
+        domain: simulation.domain().to_vec(),
+        notes: simulation.start_notes(),
+    })
 }
 
 /// A run recorded year by year: the simulation, the timeline being recorded and the summary
@@ -91,10 +96,11 @@ impl RecordedRun {
     pub fn ice_only(
         bed_m: &Grid,
         ice_thickness_m: &Grid,
+        domain: Option<&Grid>,
         scenario: &Scenario,
     ) -> Result<RecordedRun, RecordedRunError> {
-        let simulation = IceSimulation::new(bed_m, ice_thickness_m, scenario)?;
-        let recorder = ice_recorder(&simulation);
+        let simulation = IceSimulation::with_domain(bed_m, ice_thickness_m, domain, scenario)?;
+        let recorder = ice_recorder(&simulation, bed_m);
         let rows = vec![RecordedRow {
             ice: simulation.summary()[0],
             vegetation: None,
@@ -114,6 +120,7 @@ impl RecordedRun {
     pub fn with_plants<F>(
         bed_m: &Grid,
         ice_thickness_m: &Grid,
+        domain: Option<&Grid>,
         scenario: &Scenario,
         initial_stages: Option<&Grid>,
         read_file: F,
@@ -121,7 +128,13 @@ impl RecordedRun {
     where
         F: FnMut(&str) -> Result<Vec<u8>, String>,
     {
-        let mut coupled = CoupledSimulation::new(bed_m, ice_thickness_m, scenario, initial_stages)?;
+        let mut coupled = CoupledSimulation::with_domain(
+            bed_m,
+            ice_thickness_m,
+            domain,
+            scenario,
+            initial_stages,
+        )?;
         coupled.add_scenario_disturbances(scenario, read_file)?;
         let names = scenario
             .vegetation
@@ -129,7 +142,7 @@ impl RecordedRun {
             .iter()
             .map(|t| t.name.clone())
             .collect();
-        let recorder = ice_recorder(coupled.ice()).with_plants(
+        let recorder = ice_recorder(coupled.ice(), bed_m).with_plants(
             names,
             coupled.stage(),
             &covers_of(&coupled),

@@ -111,6 +111,42 @@ pub fn fit_vegetation(
     Ok((fitted.grid, fitted.note))
 }
 
+/// Reads a glacier domain onto the terrain's cells: a GeoJSON polygon (the cells whose centre
+/// lies inside; a name ending in `.geojson` or `.json`) or a GeoTIFF whose cells above zero
+/// are inside (resampled by the nearest cell if needed). The grid holds 1 inside, 0 outside.
+pub fn fit_domain(
+    terrain: &GridGeometry,
+    bytes: &[u8],
+    name: &str,
+) -> Result<(Grid, Option<String>), RunInputError> {
+    let lower = name.to_ascii_lowercase();
+    let mut grid = Grid::filled(*terrain, 0.0);
+    if lower.ends_with(".geojson") || lower.ends_with(".json") {
+        // Bytes that are not UTF-8 fail as GeoJSON, with the parser's message.
+        let text = String::from_utf8_lossy(bytes);
+        let mask = outline_mask(&text, name, terrain)?;
+        for (v, inside) in grid.values.iter_mut().zip(mask) {
+            *v = if inside { 1.0 } else { 0.0 };
+        }
+        return Ok((grid, None));
+    }
+    let fitted = fit_to(
+        read_geotiff(bytes, name)?,
+        terrain,
+        Resampling::Nearest,
+        name,
+    )?;
+    for ((v, &d), &missing) in grid
+        .values
+        .iter_mut()
+        .zip(&fitted.grid.values)
+        .zip(&fitted.grid.nodata)
+    {
+        *v = if !missing && d > 0.0 { 1.0 } else { 0.0 };
+    }
+    Ok((grid, fitted.note))
+}
+
 /// Estimates the ice thickness inside a GeoJSON glacier outline from the surface slope, with
 /// the scenario's plasticity parameters; the note gives area, volume and the volume-area
 /// scaling check.

@@ -82,6 +82,9 @@ pub struct GridFiles {
     pub ice_thickness: Option<String>,
     /// Glacier mask, GeoTIFF: cells with a value above zero lie inside the glacier.
     pub glacier_mask: Option<String>,
+    /// Glacier domain, where the balance may add ice: a GeoTIFF (cells above zero) or a
+    /// GeoJSON polygon. Default: the starting ice and the ground draining into it.
+    pub glacier_domain: Option<String>,
 }
 
 impl GridFiles {
@@ -108,6 +111,7 @@ impl GridFiles {
             ("grids.bed_elevation", &self.bed_elevation),
             ("grids.ice_thickness", &self.ice_thickness),
             ("grids.glacier_mask", &self.glacier_mask),
+            ("grids.glacier_domain", &self.glacier_domain),
         ] {
             if name.as_deref().is_some_and(|n| n.trim().is_empty()) {
                 return Err(ScenarioError::Invalid {
@@ -134,6 +138,16 @@ fn default_n_years() -> u32 {
     100
 }
 
+/// Default start-up relaxation, years: long enough for the flow to settle a surveyed or
+/// estimated thickness field (the real-terrain reference check's outline estimate stops
+/// spreading after about 10 years; measured), short against the decades of glacier response
+/// (own choice, no source).
+pub const DEFAULT_RELAXATION_YEARS: u32 = 10;
+
+fn default_relaxation_years() -> u32 {
+    DEFAULT_RELAXATION_YEARS
+}
+
 fn default_name() -> String {
     "unnamed scenario".to_string()
 }
@@ -156,6 +170,10 @@ pub struct Scenario {
     /// Years to simulate after the start year, 1 to 2000. Default 100.
     #[serde(default = "default_n_years")]
     pub n_years: u32,
+    /// Years the ice relaxes at the start year's climate before the start year, 0 to 200.
+    /// Default 10: the given thickness is seldom in balance with the model's flow.
+    #[serde(default = "default_relaxation_years")]
+    pub relaxation_years: u32,
     /// Years whose ice thickness is written out, each from start_year to start_year + n_years.
     #[serde(default)]
     pub output_years: Vec<i32>,
@@ -190,6 +208,7 @@ impl Default for Scenario {
             grids: GridFiles::default(),
             start_year: default_start_year(),
             n_years: default_n_years(),
+            relaxation_years: DEFAULT_RELAXATION_YEARS,
             output_years: Vec::new(),
             climate: ClimateParams::default(),
             mass_balance: MassBalanceParams::default(),
@@ -259,6 +278,13 @@ impl Scenario {
             f64::from(self.n_years),
             1.0,
             f64::from(MAX_YEARS),
+            "years",
+        )?;
+        check_range(
+            "relaxation_years",
+            f64::from(self.relaxation_years),
+            0.0,
+            200.0,
             "years",
         )?;
         let last_year = f64::from(self.start_year) + f64::from(self.n_years);

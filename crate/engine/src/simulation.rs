@@ -14,15 +14,27 @@
 //! Conventions. The grids describe the end of `start_year`. `step_year` simulates the next
 //! calendar year Y with the anomaly dT(Y) and returns the summary of the state at its end; a
 //! cell exposed during Y has `year_exposed = Y`. The grid edge is closed to ice flow.
+//!
+//! Start-up. Before the first year the ELA is calibrated on the given glacier unless the
+//! scenario fixes it (`ela_calibration`), the glacier domain is found (`glacier_domain`), and
+//! the ice relaxes for `relaxation_years` at the start year's climate: a thickness grid from
+//! a survey or an estimate is not in balance with the model's flow, and without relaxation
+//! the first years would show that adjustment as if it were climate. The timeline starts
+//! from the relaxed ice; the volume change is reported.
 
 use thiserror::Error;
 
 use crate::climate::ClimateTrajectory;
+use crate::ela_calibration::{
+    aar_ela_m, ela_for_mean_balance, CalibrationError, ElaCalibration, ElaMethod,
+};
 use crate::exposure::{ExposureTracker, ICE_COVER_THRESHOLD_M};
+use crate::glacier_domain::{block_fractions, drainage_domain};
 use crate::grid::{Grid, GridGeometry};
-use crate::ice_flow::{CellBox, FlowError, SiaStepper};
-use crate::mass_balance::MassBalanceParams;
+use crate::ice_flow::{positive_part, AdvanceReport, CellBox, FlowError, SiaStepper};
+use crate::mass_balance::{DomainRule, LinearBalance, MassBalanceParams, WATER_DENSITY_KG_M3};
 use crate::scenario::{Scenario, ScenarioError};
+use crate::snow_redistribution::SnowRedistribution;
 
 /// Largest initial ice thickness accepted, m (thicker than any mountain glacier).
 pub const MAX_INITIAL_THICKNESS_M: f32 = 2000.0;
@@ -77,6 +89,37 @@ pub enum SimulationError {
     EmptyBed,
     #[error("the grid is {n_cols} x {n_rows} cells; the ice model needs at least 3 x 3")]
     TooSmall { n_cols: usize, n_rows: usize },
+    #[error(transparent)]
+    Calibration(#[from] CalibrationError),
+}
+
+/// What the start-up relaxation did.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
+pub struct RelaxationReport {
+    /// Years relaxed at the start year's climate before the start year.
+    pub years: u32,
+    /// Ice volume before and after, km^3.
+    pub volume_before_km3: f64,
+    pub volume_after_km3: f64,
+}
+
+impl RelaxationReport {
+    /// One line for the run status and provenance.
+    pub fn describe(&self) -> String {
+        if self.years == 0 {
+            return "no start-up relaxation".to_string();
+        }
+        let change = self.volume_after_km3 - self.volume_before_km3;
+        let percent = if self.volume_before_km3 > 0.0 {
+            100.0 * change / self.volume_before_km3
+        } else {
+            0.0
+        };
+        format!(
+            "ice relaxed {} years at the start climate: volume {:.4} to {:.4} km³ ({percent:+.1} %)",
+            self.years, self.volume_before_km3, self.volume_after_km3
+        )
+    }
 }
 
 /// Bed elevation from a surface and a thickness grid: b = s - H (nodata thickness = no ice).
@@ -110,7 +153,18 @@ pub struct IceSimulation {
     ice_rows: usize,
     climate: ClimateTrajectory,
     mass_balance: MassBalanceParams,
+    calibration: ElaCalibration,
+    relaxation: RelaxationReport,
     ice_density_kg_m3: f64,
+    /// Fine cells where the balance may add ice.
+    domain: Vec<bool>,
+    /// Whether the domain came from a grid the planner gave.
+    domain_given: bool,
+    /// Snow redistribution on the ice grid, with its scratch fields.
+    redistribution: Option<SnowRedistribution>,
+    surface_scratch: Vec<f64>,
+    snowfall_scratch: Vec<f64>,
+    kept_scratch: Vec<f64>,
     start_year: i32,
     end_year: i32,
     /// Last year whose end state is held.
@@ -128,10 +182,23 @@ pub struct IceSimulation {
 
 impl IceSimulation {
     /// Validates the scenario and grids and prepares the run. `ice_thickness_m` nodata
-    /// counts as no ice; bed nodata cells are closed to ice.
+    /// counts as no ice; bed nodata cells are closed to ice. The glacier domain follows the
+    /// scenario's rule (see [`IceSimulation::with_domain`]).
     pub fn new(
         bed_m: &Grid,
         ice_thickness_m: &Grid,
+        scenario: &Scenario,
+    ) -> Result<Self, SimulationError> {
+        Self::with_domain(bed_m, ice_thickness_m, None, scenario)
+    }
+
+    /// As [`IceSimulation::new`], with the glacier domain given as a grid on the bed's cells
+    /// (a value above zero marks the domain; nodata is outside), or `None` for the scenario's
+    /// rule.
+    pub fn with_domain(
+        bed_m: &Grid,
+        ice_thickness_m: &Grid,
+        domain_grid: Option<&Grid>,
         scenario: &Scenario,
     ) -> Result<Self, SimulationError> {
         scenario.validate()?;
@@ -140,6 +207,13 @@ impl IceSimulation {
             return Err(SimulationError::Misaligned {
                 layer: "ice thickness",
             });
+        }
+        if let Some(d) = domain_grid {
+            if !geometry.aligns_with(&d.geometry) {
+                return Err(SimulationError::Misaligned {
+                    layer: "glacier domain",
+                });
+            }
         }
         let (n_cols, n_rows) = (geometry.n_cols, geometry.n_rows);
         if n_cols < 3 || n_rows < 3 {
@@ -194,6 +268,9 @@ impl IceSimulation {
         let mut bed_sum = vec![0.0_f64; n_ice];
         let mut n_valid = vec![0usize; n_ice];
         let mut ice_sum = vec![0.0_f64; n_ice];
+        // Fine cells of the starting glacier (at least 1 m of ice) per block: the weights of
+        // the glacier-wide mean balance.
+        let mut glacier_cells = vec![0usize; n_ice];
         for idx in 0..n_cols * n_rows {
             if !valid[idx] {
                 continue;
@@ -202,6 +279,7 @@ impl IceSimulation {
             bed_sum[ice_idx] += f64::from(bed_m.values[idx]);
             n_valid[ice_idx] += 1;
             ice_sum[ice_idx] += f64::from(thickness[idx]);
+            glacier_cells[ice_idx] += usize::from(thickness[idx] >= ICE_COVER_THRESHOLD_M);
         }
         let open: Vec<bool> = n_valid.iter().map(|&n| n > 0).collect();
         let mut ice_bed: Vec<Option<f64>> = bed_sum
@@ -213,7 +291,7 @@ impl IceSimulation {
         let ice_bed: Vec<f64> = ice_bed.into_iter().map(|z| z.unwrap_or(0.0)).collect();
         let cells_per_block = (block * block) as f64;
         let ice_grid_thickness_m: Vec<f64> = ice_sum.iter().map(|&v| v / cells_per_block).collect();
-        let stepper = SiaStepper::new(
+        let mut stepper = SiaStepper::new(
             ice_cols,
             ice_rows,
             geometry.cell_size_m * block as f64,
@@ -221,15 +299,74 @@ impl IceSimulation {
             &open,
             scenario.flow.constants(),
         )?;
+
+        let surface_m = Grid {
+            geometry,
+            values: bed_m
+                .values
+                .iter()
+                .zip(&thickness)
+                .map(|(&b, &h)| b + h)
+                .collect(),
+            nodata: bed_m.nodata.clone(),
+            nodata_value: bed_m.nodata_value,
+        };
+        let domain: Vec<bool> = match (domain_grid, scenario.mass_balance.domain) {
+            (Some(d), _) => d
+                .values
+                .iter()
+                .zip(&d.nodata)
+                .zip(&valid)
+                .map(|((&v, &missing), &ok)| ok && !missing && v > 0.0)
+                .collect(),
+            (None, DomainRule::Drainage) => drainage_domain(&surface_m, &thickness),
+            (None, DomainRule::WholeGrid) => valid.clone(),
+        };
+        let mut ice_domain = block_fractions(&domain, &valid, n_cols, n_rows, block);
+        for (d, &o) in ice_domain.iter_mut().zip(&open) {
+            if !o {
+                *d = 0.0;
+            }
+        }
+        stepper.set_domain(&ice_domain);
+
+        let mb = &scenario.mass_balance;
+        let density = scenario.flow.ice_density_kg_m3;
+        let redistribution = mb.snow_redistribution.then(|| {
+            SnowRedistribution::new(
+                ice_cols,
+                ice_rows,
+                stepper.cell_size_m(),
+                mb.snow_limit_slope_deg,
+                mb.snow_holding_depth_mwe * WATER_DENSITY_KG_M3 / density,
+            )
+        });
         let climate = ClimateTrajectory::new(&scenario.climate, f64::from(scenario.start_year))?;
+        let start_anomaly = climate.anomaly_c(f64::from(scenario.start_year));
         let mut simulation = IceSimulation {
             geometry,
             block,
             ice_cols,
             ice_rows,
             climate,
-            mass_balance: scenario.mass_balance.clone(),
-            ice_density_kg_m3: scenario.flow.ice_density_kg_m3,
+            mass_balance: mb.clone(),
+            calibration: ElaCalibration {
+                ela0_m: 0.0,
+                start_ela_m: 0.0,
+                method: ElaMethod::Fixed,
+            },
+            relaxation: RelaxationReport {
+                years: 0,
+                volume_before_km3: 0.0,
+                volume_after_km3: 0.0,
+            },
+            ice_density_kg_m3: density,
+            domain,
+            domain_given: domain_grid.is_some(),
+            redistribution,
+            surface_scratch: Vec::with_capacity(n_ice),
+            snowfall_scratch: vec![0.0; n_ice],
+            kept_scratch: vec![0.0; n_ice],
             start_year: scenario.start_year,
             end_year: scenario.end_year(),
             year: scenario.start_year,
@@ -242,18 +379,185 @@ impl IceSimulation {
             summary: Vec::with_capacity(scenario.n_years as usize + 1),
             block_weights: vec![0.0; block * block],
         };
+        simulation.calibration = simulation.calibrate(
+            &surface_m,
+            &thickness,
+            &glacier_cells,
+            start_anomaly,
+            domain_grid.is_some(),
+        )?;
+        simulation.relax(scenario.relaxation_years, start_anomaly);
         // The fine layer is the downscaled ice grid from the start, so the first year's
         // changes are the model's, not the transfer's.
         if let Some(ice_box) = simulation.ice_box {
             simulation.downscale(ice_box);
         }
         simulation.exposure = ExposureTracker::new(&simulation.ice_thickness_m);
-        let anomaly = simulation
-            .climate
-            .anomaly_c(f64::from(simulation.start_year));
-        let row = simulation.summarise(simulation.start_year, anomaly, 0, 0, 0);
+        let row = simulation.summarise(simulation.start_year, start_anomaly, 0, 0, 0);
         simulation.summary.push(row);
         Ok(simulation)
+    }
+
+    /// The ELA of the run: the scenario's, or calibrated on the starting glacier.
+    fn calibrate(
+        &mut self,
+        surface_m: &Grid,
+        thickness_m: &[f32],
+        glacier_cells: &[usize],
+        start_anomaly_c: f64,
+        domain_given: bool,
+    ) -> Result<ElaCalibration, SimulationError> {
+        let mb = self.mass_balance.clone();
+        let shift = mb.ela_sensitivity_m_per_k * start_anomaly_c;
+        let done = |start_ela_m: f64, method: ElaMethod| ElaCalibration {
+            ela0_m: start_ela_m - shift,
+            start_ela_m,
+            method,
+        };
+        if let Some(ela0) = mb.ela_m {
+            return Ok(ElaCalibration {
+                ela0_m: ela0,
+                start_ela_m: ela0 + shift,
+                method: ElaMethod::Fixed,
+            });
+        }
+        let mut glacier_surfaces: Vec<f64> = surface_m
+            .values
+            .iter()
+            .zip(thickness_m)
+            .zip(&self.valid)
+            .filter(|((_, &h), &ok)| ok && h >= ICE_COVER_THRESHOLD_M)
+            .map(|((&z, _), _)| f64::from(z))
+            .collect();
+        if glacier_surfaces.is_empty() {
+            if domain_given {
+                return Err(CalibrationError::NothingToCalibrate.into());
+            }
+            let highest = surface_m.value_range().map_or(0.0, |(_, hi)| f64::from(hi));
+            return Ok(done(highest, ElaMethod::NoGlacier));
+        }
+        match mb.calibration_target_mwe_per_a {
+            None => {
+                let ratio = mb.balanced_aar;
+                let ela = aar_ela_m(&mut glacier_surfaces, ratio).unwrap_or(0.0);
+                Ok(done(ela, ElaMethod::AccumulationAreaRatio { ratio }))
+            }
+            Some(target) => {
+                let (low, high) = glacier_surfaces
+                    .iter()
+                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &z| {
+                        (lo.min(z), hi.max(z))
+                    });
+                let thickness = self.ice_grid_thickness_m.clone();
+                let ela = ela_for_mean_balance(target, low - 3000.0, high + 3000.0, |ela| {
+                    self.glacier_mean_balance_mwe(&thickness, glacier_cells, ela)
+                })?;
+                Ok(done(
+                    ela,
+                    ElaMethod::MeanBalance {
+                        target_mwe_per_a: target,
+                    },
+                ))
+            }
+        }
+    }
+
+    /// Glacier-wide mean balance of the ice-grid state `thickness_m` for the ELA `ela_m`, m
+    /// water equivalent per year: each block's balance at its surface (ablation plus the
+    /// accumulation it keeps, after redistribution), weighted by its fine glacier cells.
+    pub(crate) fn glacier_mean_balance_mwe(
+        &mut self,
+        thickness_m: &[f64],
+        glacier_cells: &[usize],
+        ela_m: f64,
+    ) -> f64 {
+        let balance = self
+            .mass_balance
+            .profile_at_ela(ela_m, self.ice_density_kg_m3);
+        self.accumulation_field(thickness_m, &balance);
+        let (mut sum, mut weight) = (0.0, 0.0);
+        for (i, &n) in glacier_cells.iter().enumerate() {
+            if n == 0 {
+                continue;
+            }
+            let s = self.surface_scratch[i];
+            let accumulation = match self.redistribution {
+                Some(_) => self.kept_scratch[i],
+                None => positive_part(balance.rate_m_per_a(s)) * self.stepper.domain()[i],
+            };
+            sum += n as f64 * (balance.ablation_m_per_a(s) + accumulation);
+            weight += n as f64;
+        }
+        sum / weight * self.ice_density_kg_m3 / WATER_DENSITY_KG_M3
+    }
+
+    /// Fills the surface scratch from `thickness_m` and, with redistribution, the snow each
+    /// ice cell keeps this year (`kept_scratch`, m ice per year).
+    fn accumulation_field(&mut self, thickness_m: &[f64], balance: &LinearBalance) {
+        self.stepper
+            .surface_of(thickness_m, &mut self.surface_scratch);
+        if let Some(redistribution) = &mut self.redistribution {
+            let domain = self.stepper.domain();
+            for ((snow, &s), &d) in self
+                .snowfall_scratch
+                .iter_mut()
+                .zip(&self.surface_scratch)
+                .zip(domain)
+            {
+                *snow = positive_part(balance.rate_m_per_a(s)) * d;
+            }
+            redistribution.redistribute(
+                &self.surface_scratch,
+                domain,
+                &self.snowfall_scratch,
+                &mut self.kept_scratch,
+            );
+        }
+    }
+
+    /// One year of flow and balance on the ice grid.
+    fn advance_year(&mut self, balance: &LinearBalance) -> AdvanceReport {
+        if self.redistribution.is_some() {
+            let thickness = std::mem::take(&mut self.ice_grid_thickness_m);
+            self.accumulation_field(&thickness, balance);
+            self.ice_grid_thickness_m = thickness;
+            self.stepper.advance_with(
+                &mut self.ice_grid_thickness_m,
+                1.0,
+                balance,
+                Some(&self.kept_scratch),
+            )
+        } else {
+            self.stepper
+                .advance(&mut self.ice_grid_thickness_m, 1.0, balance)
+        }
+    }
+
+    /// Relaxes the ice for `years` at the start year's climate.
+    fn relax(&mut self, years: u32, start_anomaly_c: f64) {
+        let before = self.ice_volume_m3();
+        let balance = self.balance_for(start_anomaly_c);
+        for _ in 0..years {
+            if self.ice_box.is_none() {
+                break;
+            }
+            self.advance_year(&balance);
+            self.ice_box = self.stepper.ice_box(&self.ice_grid_thickness_m);
+        }
+        self.relaxation = RelaxationReport {
+            years,
+            volume_before_km3: before / 1e9,
+            volume_after_km3: self.ice_volume_m3() / 1e9,
+        };
+    }
+
+    /// The balance profile for an anomaly, about the run's ELA.
+    fn balance_for(&self, anomaly_c: f64) -> LinearBalance {
+        let ela = self
+            .mass_balance
+            .ela_for_anomaly_m(self.calibration.ela0_m, anomaly_c);
+        self.mass_balance
+            .profile_at_ela(ela, self.ice_density_kg_m3)
     }
 
     /// Simulates the next year; `None` once the scenario's years are done. Allocates
@@ -264,12 +568,8 @@ impl IceSimulation {
         }
         let year = self.year + 1;
         let anomaly = self.climate.anomaly_c(f64::from(year));
-        let balance = self
-            .mass_balance
-            .profile_for_anomaly(anomaly, self.ice_density_kg_m3);
-        let report = self
-            .stepper
-            .advance(&mut self.ice_grid_thickness_m, 1.0, &balance);
+        let balance = self.balance_for(anomaly);
+        let report = self.advance_year(&balance);
         let new_box = self.stepper.ice_box(&self.ice_grid_thickness_m);
         let changed = match (self.ice_box, new_box) {
             (Some(a), Some(b)) => Some(union(a, b)),
@@ -394,7 +694,9 @@ impl IceSimulation {
         YearSummary {
             year,
             temperature_anomaly_c: anomaly_c,
-            ela_m: self.mass_balance.ela_for_anomaly_m(anomaly_c),
+            ela_m: self
+                .mass_balance
+                .ela_for_anomaly_m(self.calibration.ela0_m, anomaly_c),
             ice_area_km2: n_ice as f64 * cell_km2,
             ice_volume_km3: self.ice_volume_m3() / 1e9,
             newly_exposed_area_km2: newly_exposed as f64 * cell_km2,
@@ -407,6 +709,39 @@ impl IceSimulation {
     /// Ice volume on the ice grid, m^3 (exact, `f64`).
     pub fn ice_volume_m3(&self) -> f64 {
         self.stepper.volume_m3(&self.ice_grid_thickness_m)
+    }
+
+    /// How the run's ELA was set.
+    pub fn calibration(&self) -> &ElaCalibration {
+        &self.calibration
+    }
+
+    /// What the start-up relaxation did.
+    pub fn relaxation(&self) -> &RelaxationReport {
+        &self.relaxation
+    }
+
+    /// One line per start-up step: the ELA and how it was set, the relaxation, the domain.
+    pub fn start_notes(&self) -> Vec<String> {
+        let n_domain = self.domain.iter().filter(|&&d| d).count();
+        vec![
+            self.calibration.describe(),
+            self.relaxation.describe(),
+            format!(
+                "glacier domain {:.3} km² ({})",
+                n_domain as f64 * self.geometry.cell_area_m2() / 1e6,
+                match (self.domain_given, self.mass_balance.domain) {
+                    (true, _) => "given",
+                    (false, DomainRule::Drainage) => "starting ice and the ground draining into it",
+                    (false, DomainRule::WholeGrid) => "the whole grid",
+                }
+            ),
+        ]
+    }
+
+    /// Input cells where the balance may add ice (the glacier domain).
+    pub fn domain(&self) -> &[bool] {
+        &self.domain
     }
 
     /// Summary rows so far: the start state, then one per simulated year.
@@ -541,6 +876,7 @@ mod tests {
         );
         let scenario = Scenario {
             n_years: 2,
+            relaxation_years: 0,
             ..Scenario::default()
         };
         let simulation = IceSimulation::new(&bed, &thickness, &scenario).expect("valid");

@@ -49,7 +49,7 @@ pub const DEFAULT_STAGE_BUDGET_BYTES: usize = 8 << 20;
 /// 1M cells give 8 keyframes).
 pub const DEFAULT_COVER_BUDGET_BYTES: usize = 48 << 20;
 
-const MAGIC: &[u8; 8] = b"FFTLINE2";
+const MAGIC: &[u8; 8] = b"FFTLINE3";
 
 /// Per-cell flag: the cell was ice-covered at the start.
 const FLAG_COVERED_AT_START: u8 = 1;
@@ -178,6 +178,18 @@ pub struct Timeline {
     max_thickness_q: u16,
     /// Stages, covers and soil, when the run had plants.
     plants: Option<PlantTrack>,
+    /// The exact bed, the glacier domain and how the run's ice was set up, when recorded.
+    start: Option<RunStart>,
+}
+
+/// What a run started from beyond the ice: the bed exactly (the starting ice may have
+/// relaxed, so the DEM less the starting ice is not the bed), the glacier domain and one line
+/// per start-up step (ELA calibration, relaxation), for the page and export provenance.
+#[derive(Clone, Debug, PartialEq)]
+pub struct RunStart {
+    pub bed_m: Vec<f32>,
+    pub domain: Vec<bool>,
+    pub notes: Vec<String>,
 }
 
 /// Succession stage, cover and soil of a run with plants.
@@ -306,6 +318,7 @@ impl TimelineRecorder {
                 later_toggles: Vec::new(),
                 max_thickness_q: 0,
                 plants: None,
+                start: None,
             },
             end_year: start_year + n_years as i32,
             covered_now,
@@ -342,6 +355,12 @@ impl TimelineRecorder {
             cover_frames: vec![CoverFrame::new(start, covers, soil)],
         });
         self.stage_now = stage.to_vec();
+        self
+    }
+
+    /// Keeps the run's exact bed, glacier domain and start-up notes (one value per cell).
+    pub fn with_start(mut self, start: RunStart) -> TimelineRecorder {
+        self.timeline.start = Some(start);
         self
     }
 
@@ -495,6 +514,14 @@ impl Timeline {
                 .map(|f| 2 * f.thickness_q.len() + 20)
                 .sum::<usize>()
             + self.plants.as_ref().map_or(0, plant_memory_bytes)
+            + self.start.as_ref().map_or(0, |s| {
+                5 * s.bed_m.len() + s.notes.iter().map(String::len).sum::<usize>()
+            })
+    }
+
+    /// The run's exact bed, glacier domain and start-up notes, when recorded.
+    pub fn run_start(&self) -> Option<&RunStart> {
+        self.start.as_ref()
     }
 
     /// Bytes held for stages, covers and soil (zero without plants).
@@ -905,6 +932,21 @@ impl Timeline {
                 }
             }
         }
+        match &self.start {
+            None => out.push(0),
+            Some(start) => {
+                out.push(1);
+                for z in &start.bed_m {
+                    out.extend_from_slice(&z.to_le_bytes());
+                }
+                out.extend(start.domain.iter().map(|&d| u8::from(d)));
+                out.extend_from_slice(&(start.notes.len() as u32).to_le_bytes());
+                for note in &start.notes {
+                    out.extend_from_slice(&(note.len() as u32).to_le_bytes());
+                    out.extend_from_slice(note.as_bytes());
+                }
+            }
+        }
         out
     }
 
@@ -973,8 +1015,14 @@ impl Timeline {
             1 => Some(read_plants(&mut reader, n_cells, start_year, last_year)?),
             _ => return Err(TimelineError::Inconsistent("plant flag")),
         };
+        let start = match reader.take(1)?[0] {
+            0 => None,
+            1 => Some(read_start(&mut reader, n_cells)?),
+            _ => return Err(TimelineError::Inconsistent("start flag")),
+        };
         Ok(Timeline {
             plants,
+            start,
             max_thickness_q: max_q(&frames),
             n_cols,
             n_rows,
@@ -987,6 +1035,32 @@ impl Timeline {
             later_toggles,
         })
     }
+}
+
+/// Reads the start part of [`Timeline::to_bytes`] output.
+fn read_start(reader: &mut Reader, n_cells: usize) -> Result<RunStart, TimelineError> {
+    let bed_m = reader
+        .take(4 * n_cells)?
+        .chunks_exact(4)
+        .map(|c| f32::from_le_bytes([c[0], c[1], c[2], c[3]]))
+        .collect();
+    let domain = reader.take(n_cells)?.iter().map(|&d| d != 0).collect();
+    let n_notes = reader.u32()? as usize;
+    if n_notes > 64 {
+        return Err(TimelineError::Inconsistent("start notes"));
+    }
+    let mut notes = Vec::with_capacity(n_notes);
+    for _ in 0..n_notes {
+        let len = reader.u32()? as usize;
+        let text = std::str::from_utf8(reader.take(len)?)
+            .map_err(|_| TimelineError::Inconsistent("start note text"))?;
+        notes.push(text.to_string());
+    }
+    Ok(RunStart {
+        bed_m,
+        domain,
+        notes,
+    })
 }
 
 /// Reads the plant part of [`Timeline::to_bytes`] output.

@@ -772,6 +772,7 @@ mod tests {
             scenario_name: "test, \"quoted\"".into(),
             seed: 7,
             engine_version: "0.0.0",
+            run_notes: Vec::new(),
         };
         let csv = zone_timeline_csv(&timeline, &dem, &zone, &meta).unwrap();
         assert!(csv.contains("# caution: "));
@@ -830,6 +831,7 @@ mod tests {
                 scenario_name: "s".into(),
                 seed: 0,
                 engine_version: "0",
+                run_notes: Vec::new(),
             },
         )
         .unwrap();

@@ -400,10 +400,11 @@ impl Workspace {
                     .collect()
             }),
         };
+        let meta = ExportMeta::for_run(&scenario, &timeline);
         self.timeline = Some(LoadedTimeline {
             timeline,
             renderer,
-            meta: ExportMeta::from_scenario(&scenario),
+            meta,
             cells_csv: None,
         });
         to_js(&info)
@@ -838,11 +839,14 @@ impl RunRecorder {
             ice_name,
             None,
         )?;
-        let run = RecordedRun::ice_only(&grids.bed_m, &grids.ice_thickness_m, &scenario)
+        let run = RecordedRun::ice_only(&grids.bed_m, &grids.ice_thickness_m, None, &scenario)
             .map_err(|e| JsError::new(&e.to_string()))?;
         Ok(RunRecorder {
+            meta: ExportMeta {
+                run_notes: run.ice().start_notes(),
+                ..ExportMeta::from_scenario(&scenario)
+            },
             run,
-            meta: ExportMeta::from_scenario(&scenario),
             summary_csv: None,
         })
     }
@@ -875,6 +879,7 @@ impl RunRecorder {
         let run = RecordedRun::with_plants(
             &grids.bed_m,
             &grids.ice_thickness_m,
+            None,
             &scenario,
             grids.vegetation.as_ref(),
             |name| {
@@ -886,8 +891,11 @@ impl RunRecorder {
         )
         .map_err(|e| JsError::new(&e.to_string()))?;
         Ok(RunRecorder {
+            meta: ExportMeta {
+                run_notes: run.ice().start_notes(),
+                ..ExportMeta::from_scenario(&scenario)
+            },
             run,
-            meta: ExportMeta::from_scenario(&scenario),
             summary_csv: None,
         })
     }

@@ -8,6 +8,7 @@
 //! first type.
 
 use forefield_engine::dispersal::KernelFamily;
+use forefield_engine::mass_balance::DomainRule;
 use forefield_engine::pft::GrowthForm;
 use forefield_engine::scenario::{Scenario, ScenarioError};
 use serde::Serialize;
@@ -133,12 +134,68 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         "Any year of solar maximum; sets the phase of the cycle.",
     ),
     (
+        "relaxation_years",
+        "run",
+        "Start-up relaxation",
+        FieldKind::Integer,
+        false,
+        "Years the ice settles at the start climate before the run; the given thickness is seldom in balance with the flow.",
+    ),
+    (
         "mass_balance.ela_m",
         "ice",
         "Equilibrium-line altitude",
         FieldKind::Number,
+        true,
+        "Height where yearly snow gain equals melt, before warming; empty calibrates it on the starting glacier.",
+    ),
+    (
+        "mass_balance.calibration_target_mwe_per_a",
+        "ice",
+        "Calibrate to mean balance",
+        FieldKind::Number,
+        true,
+        "Glacier-wide mean balance on the starting glacier (e.g. a measured rate); empty uses the balanced accumulation-area ratio.",
+    ),
+    (
+        "mass_balance.balanced_aar",
+        "ice",
+        "Balanced accumulation-area ratio",
+        FieldKind::Number,
         false,
-        "Height where yearly snow gain equals melt, before warming.",
+        "Share of a balanced glacier above its equilibrium line (0.58, Dyurgerov et al. 2009).",
+    ),
+    (
+        "mass_balance.domain",
+        "ice",
+        "Glacier domain",
+        FieldKind::Choice,
+        false,
+        "Where snow may build ice: the glacier and the ground draining into it, or the whole grid.",
+    ),
+    (
+        "mass_balance.snow_redistribution",
+        "ice",
+        "Snow slides off steep ground",
+        FieldKind::Boolean,
+        false,
+        "Snow on slopes steeper than the limit slides down to where it can lie (Gruber 2007).",
+    ),
+    (
+        "mass_balance.snow_limit_slope_deg",
+        "ice",
+        "Snow limit slope",
+        FieldKind::Number,
+        false,
+        "No snow stays on slopes this steep or steeper.",
+    ),
+    (
+        "mass_balance.snow_holding_depth_mwe",
+        "ice",
+        "Snow a level cell keeps",
+        FieldKind::Number,
+        false,
+        "Most snow a level cell keeps in a year; less on steeper ground.",
     ),
     (
         "mass_balance.ela_sensitivity_m_per_k",
@@ -499,6 +556,26 @@ fn growth_form_label(form: GrowthForm) -> &'static str {
     }
 }
 
+/// The values of a choice field outside the plant table.
+fn field_options(path: &str) -> Vec<ChoiceOption> {
+    match path {
+        "mass_balance.domain" => [
+            (
+                DomainRule::Drainage,
+                "glacier and the ground draining into it",
+            ),
+            (DomainRule::WholeGrid, "whole grid"),
+        ]
+        .into_iter()
+        .map(|(rule, label)| ChoiceOption {
+            value: serde_json::to_value(rule).unwrap_or(Value::Null),
+            label,
+        })
+        .collect(),
+        _ => Vec::new(),
+    }
+}
+
 /// The values of a choice trait, written as the engine reads them.
 fn choice_options(trait_name: &str) -> Vec<ChoiceOption> {
     // Serialising a unit enum variant cannot fail.
@@ -611,7 +688,7 @@ pub fn scenario_schema() -> Vec<FieldSchema> {
                 min: range.as_ref().map(|r| r.0),
                 max: range.as_ref().map(|r| r.1),
                 unit: range.map(|r| r.2).unwrap_or_default(),
-                options: Vec::new(),
+                options: field_options(path),
             }
         });
     let default_types = get(&defaults, "vegetation.types")

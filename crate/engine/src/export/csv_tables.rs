@@ -51,6 +51,9 @@ pub(crate) fn preamble(meta: &ExportMeta, table: &str) -> String {
     let _ = write!(out, "# scenario: {}{CRLF}", one_line(&meta.scenario_name));
     let _ = write!(out, "# seed: {}{CRLF}", meta.seed);
     let _ = write!(out, "# engine version: {}{CRLF}", meta.engine_version);
+    for note in &meta.run_notes {
+        let _ = write!(out, "# ice start: {}{CRLF}", one_line(note));
+    }
     let _ = write!(out, "# caution: {CAUTION}{CRLF}");
     out
 }
@@ -359,7 +362,10 @@ pub fn cell_history_csv(
     for &(col, row) in cells {
         let idx = row * g.n_cols + col;
         let (x, y) = g.cell_centre(col, row);
-        let ground_m = dem.values[idx] - timeline.ice_thickness_at(idx, timeline.start_year());
+        let ground_m = match timeline.run_start() {
+            Some(start) if start.bed_m.len() == dem.values.len() => start.bed_m[idx],
+            _ => dem.values[idx] - timeline.ice_thickness_at(idx, timeline.start_year()),
+        };
         let stages = timeline.has_plants().then(|| timeline.stage_history(idx));
         for (k, year) in (timeline.start_year()..=timeline.last_year()).enumerate() {
             let exposure = match timeline.cover_at(idx, year) {

@@ -32,6 +32,9 @@ pub struct ExportMeta {
     pub scenario_name: String,
     pub seed: u64,
     pub engine_version: &'static str,
+    /// How the run's ice was set up (ELA and its calibration, relaxation, domain), one line
+    /// each; empty for a run recorded without them.
+    pub run_notes: Vec<String>,
 }
 
 impl ExportMeta {
@@ -40,17 +43,34 @@ impl ExportMeta {
             scenario_name: scenario.name.clone(),
             seed: scenario.seed,
             engine_version: ENGINE_VERSION,
+            run_notes: Vec::new(),
+        }
+    }
+
+    /// The provenance of a recorded run: the scenario's, plus the run's start-up notes.
+    pub fn for_run(scenario: &Scenario, timeline: &Timeline) -> ExportMeta {
+        ExportMeta {
+            run_notes: timeline
+                .run_start()
+                .map(|s| s.notes.clone())
+                .unwrap_or_default(),
+            ..ExportMeta::from_scenario(scenario)
         }
     }
 
     /// One line naming the scenario, seed and engine (no line breaks).
     pub fn provenance(&self) -> String {
-        format!(
+        let mut text = format!(
             "scenario \"{}\", seed {}, Forefield engine {}",
             one_line(&self.scenario_name),
             self.seed,
             self.engine_version
-        )
+        );
+        for note in &self.run_notes {
+            text.push_str("; ");
+            text.push_str(&one_line(note));
+        }
+        text
     }
 }
 
@@ -162,6 +182,17 @@ pub(crate) fn check_year(timeline: &Timeline, year: i32) -> Result<(), ExportErr
 /// the run's maps are shaded with.
 pub fn bed_of(dem: &Grid, timeline: &Timeline) -> Grid {
     let mut bed = dem.clone();
+    if let Some(start) = timeline.run_start() {
+        if start.bed_m.len() == bed.values.len() {
+            // The exact bed the run kept: its starting ice may have relaxed.
+            for ((z, &b), &missing) in bed.values.iter_mut().zip(&start.bed_m).zip(&dem.nodata) {
+                if !missing {
+                    *z = b;
+                }
+            }
+            return bed;
+        }
+    }
     if timeline.n_cells() == bed.values.len() {
         for (idx, z) in bed.values.iter_mut().enumerate() {
             *z -= timeline.ice_thickness_at(idx, timeline.start_year());
