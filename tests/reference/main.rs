@@ -10,6 +10,7 @@ mod ice_conservation;
 mod ice_halfar;
 mod ice_mass_balance;
 mod ice_outline;
+mod ice_real_terrain;
 mod ice_response;
 mod lakes_priority_flood;
 mod outline_mask;

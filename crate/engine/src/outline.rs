@@ -1,17 +1,19 @@
 //! GeoJSON polygons (RFC 7946, read with the `geojson` crate into `geo` types) turned into
 //! cell masks once, at load: a cell is inside when its centre is (even-odd scanline fill).
 //!
-//! Coordinates must be in the grid's projected CRS. RFC 7946 makes WGS84 longitude/latitude
-//! the default, and many GIS exports still carry the 2008 `crs` member, so both are checked:
-//! a file in degrees, or one naming another EPSG code, is refused with a message rather than
-//! silently misplaced.
+//! Coordinates are in the grid's projected CRS, or in RFC 7946's default WGS 84 longitude and
+//! latitude (as glacier inventories publish outlines), converted to the grid's UTM zone by
+//! the forward Krüger series (`export::utm`). Many GIS exports still carry the 2008 `crs`
+//! member, so it is checked too: degrees on a grid in another projected CRS, or a file naming
+//! another EPSG code, is refused with a message rather than silently misplaced.
 
 use std::str::FromStr;
 
-use geo::{Area, BoundingRect, Geometry, GeometryCollection, Polygon};
+use geo::{Area, BoundingRect, Coord, Geometry, GeometryCollection, MapCoordsInPlace, Polygon};
 use geojson::GeoJson;
 use thiserror::Error;
 
+use crate::export::utm::UtmZone;
 use crate::grid::GridGeometry;
 
 /// Why a GeoJSON outline could not be turned into a mask.
@@ -21,7 +23,7 @@ pub enum OutlineError {
     NotGeoJson { file: String, reason: String },
     #[error("{file}: holds no Polygon or MultiPolygon")]
     NoPolygon { file: String },
-    #[error("{file}: coordinates look like longitude/latitude degrees (the RFC 7946 default); give the outline in the grid's projected CRS{crs}")]
+    #[error("{file}: coordinates look like longitude/latitude degrees (the RFC 7946 default), and the grid's CRS{crs} has no built-in conversion from them (WGS 84 and ETRS89 UTM zones have one); reproject the outline to the grid's CRS first")]
     Degrees { file: String, crs: String },
     #[error("{file}: its crs member names EPSG:{found}, but the grid is in EPSG:{grid}; reproject the outline first")]
     OtherCrs { file: String, found: u32, grid: u32 },
@@ -77,17 +79,27 @@ pub fn read_outline(text: &str, file: &str, grid: &GridGeometry) -> Result<Outli
     if polygons.is_empty() {
         return Err(OutlineError::NoPolygon { file: file.into() });
     }
-    let outline = Outline { polygons };
+    let mut outline = Outline { polygons };
     let bounds = outline_bounds(&outline);
     let in_degrees =
         bounds.0 >= -180.0 && bounds.1 <= 180.0 && bounds.2 >= -90.0 && bounds.3 <= 90.0;
     let grid_in_degrees_range = grid.west_m.abs() <= 180.0 && grid.north_m.abs() <= 90.0;
     if in_degrees && !grid_in_degrees_range {
-        let crs = grid.epsg.map_or(String::new(), |c| format!(" (EPSG:{c})"));
-        return Err(OutlineError::Degrees {
-            file: file.into(),
-            crs,
-        });
+        // RFC 7946 longitude and latitude, as glacier inventories publish them: converted to
+        // the grid's UTM zone where the grid is in one.
+        let Some(zone) = grid.epsg.and_then(UtmZone::from_epsg) else {
+            let crs = grid.epsg.map_or(String::new(), |c| format!(" (EPSG:{c})"));
+            return Err(OutlineError::Degrees {
+                file: file.into(),
+                crs,
+            });
+        };
+        for polygon in &mut outline.polygons {
+            polygon.map_coords_in_place(|c| {
+                let (x, y) = zone.to_easting_northing(c.x, c.y);
+                Coord { x, y }
+            });
+        }
     }
     Ok(outline)
 }
@@ -234,13 +246,53 @@ mod tests {
     }
 
     #[test]
-    fn degrees_and_foreign_crs_are_refused() {
+    fn degrees_become_utm_and_are_refused_on_other_crs() {
         let lonlat =
             r#"{"type":"Polygon","coordinates":[[[7.0,46.0],[7.1,46.0],[7.1,46.1],[7.0,46.0]]]}"#;
+        let swiss = GridGeometry {
+            epsg: Some(2056),
+            ..grid()
+        };
         assert!(matches!(
-            outline_mask(lonlat, "a.geojson", &grid()),
+            outline_mask(lonlat, "a.geojson", &swiss),
             Err(OutlineError::Degrees { .. })
         ));
+        // The same square in UTM 32N and in degrees marks the same cells.
+        let zone = UtmZone::from_epsg(32632).unwrap();
+        let on_grid = GridGeometry {
+            west_m: 500_000.0,
+            north_m: 5_000_100.0,
+            ..grid()
+        };
+        let corners = [
+            (500_020.0, 5_000_020.0),
+            (500_080.0, 5_000_020.0),
+            (500_080.0, 5_000_080.0),
+            (500_020.0, 5_000_080.0),
+            (500_020.0, 5_000_020.0),
+        ];
+        let ring = |f: &dyn Fn(f64, f64) -> (f64, f64)| {
+            corners
+                .iter()
+                .map(|&(e, n)| {
+                    let (x, y) = f(e, n);
+                    format!("[{x:.9},{y:.9}]")
+                })
+                .collect::<Vec<_>>()
+                .join(",")
+        };
+        let in_utm = format!(
+            r#"{{"type":"Polygon","coordinates":[[{}]]}}"#,
+            ring(&|e, n| (e, n))
+        );
+        let in_degrees = format!(
+            r#"{{"type":"Polygon","coordinates":[[{}]]}}"#,
+            ring(&|e, n| zone.to_lon_lat(e, n))
+        );
+        let a = outline_mask(&in_utm, "u.geojson", &on_grid).unwrap();
+        let b = outline_mask(&in_degrees, "d.geojson", &on_grid).unwrap();
+        assert_eq!(a.iter().filter(|&&m| m).count(), 36);
+        assert_eq!(a, b);
         let other = r#"{"type":"FeatureCollection","crs":{"type":"name","properties":{"name":"urn:ogc:def:crs:EPSG::2056"}},
             "features":[{"type":"Feature","properties":{},"geometry":{"type":"Polygon","coordinates":[[[1020,2020],[1080,2020],[1080,2080],[1020,2020]]]}}]}"#;
         assert!(matches!(
