@@ -35,7 +35,7 @@ pub const FORMATS: [&str; 4] = ["png", "tif", "csv", "geojson"];
 pub const EXPORT_OPTIONS: &str =
     "    --years Y,Y,...     years to export, or `last` (default), `start`, `all`
     --layers L,L,...    ice_thickness, exposure_year, stage, cover:N, soil, lakes,
-                        steep_bare, or `all`
+                        steep_bare, glacier_domain, or `all`
                         (default ice_thickness, and stage for runs with plants)
     --formats F,F,...   png, tif, csv, geojson (default all four)
     --cell COL,ROW      also write this cell's history as CSV (repeat for several cells)
@@ -108,6 +108,7 @@ impl ExportRequest {
                 "ice_thickness".to_string(),
                 "exposure_year".to_string(),
                 "lakes".to_string(),
+                "glacier_domain".to_string(),
             ];
             if timeline.has_plants() {
                 names.push("stage".into());

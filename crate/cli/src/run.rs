@@ -131,6 +131,9 @@ pub fn run(args: &[String]) -> Result<()> {
             "ice only"
         }
     );
+    for note in run.ice().start_notes() {
+        outln!("{note}");
+    }
     if scenario.output_years.contains(&run.year()) {
         write_thickness(&out_dir, &bed, run.ice())?;
     }

@@ -1,9 +1,13 @@
-//! The ELA a planner need not guess: calibrated on the starting glacier, either so that the
+//! The ELA a planner need not guess: calibrated on the starting glacier so that the
 //! glacier-wide mean balance equals a stated rate (a geodetic or measured mass balance for the
-//! glacier or its region; found by bisection, the mean balance falling monotonically as the
-//! ELA rises), or, with no rate, at the elevation where the glacier's accumulation-area ratio
-//! equals that of a glacier in balance, AAR0 = 0.58 (Dyurgerov, Meier & Bahr 2009, J. Glaciol.
-//! 55(192); value from memory). A calibration is only as good as the rate it is given.
+//! glacier or its region), or zero when none is given (a glacier in balance with the start
+//! climate); found by bisection, the mean balance falling monotonically as the ELA rises.
+//! Offered too: the elevation where the glacier's accumulation-area ratio equals that of
+//! glaciers in balance, AAR0 = 0.58 (Dyurgerov, Meier & Bahr 2009, J. Glaciol. 55(192); value
+//! from memory). Measured AARs come from balance profiles steeper below the ELA than above;
+//! with one linear gradient a uniform hypsometry is balanced at AAR 0.5 and AAR 0.58 gives a
+//! positive balance [C], which is why it is not the default. A calibration is only as good as
+//! the rate it is given.
 
 use thiserror::Error;
 
@@ -28,6 +32,8 @@ pub struct ElaCalibration {
     /// ELA in the start year's climate, m (the calibrated value).
     pub start_ela_m: f64,
     pub method: ElaMethod,
+    /// Glacier-wide mean balance of the starting glacier at this ELA, m w.e. per year.
+    pub mean_balance_mwe_per_a: Option<f64>,
 }
 
 impl ElaCalibration {
@@ -39,13 +45,23 @@ impl ElaCalibration {
                 format!("calibrated: accumulation-area ratio {ratio:.2} on the starting glacier")
             }
             ElaMethod::MeanBalance { target_mwe_per_a } => format!(
-                "calibrated: mean balance {target_mwe_per_a:+.2} m w.e./a on the starting glacier"
+                "calibrated to a mean balance of {target_mwe_per_a:+.2} m w.e./a on the starting \
+                 glacier"
             ),
             ElaMethod::NoGlacier => {
                 "no starting ice to calibrate on; placed at the highest ground".to_string()
             }
         };
-        format!("ELA {:.1} m in the start year ({how})", self.start_ela_m)
+        let balance = match (&self.method, self.mean_balance_mwe_per_a) {
+            (ElaMethod::Fixed | ElaMethod::AccumulationAreaRatio { .. }, Some(b)) => {
+                format!("; mean balance {b:+.2} m w.e./a on the starting glacier")
+            }
+            _ => String::new(),
+        };
+        format!(
+            "ELA {:.1} m in the start year ({how}){balance}",
+            self.start_ela_m
+        )
     }
 }
 

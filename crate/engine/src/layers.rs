@@ -95,6 +95,10 @@ consult local authorities and qualified professionals.";
 /// Flat colour of ice where a layer describes the ground, not the ice.
 pub const ICE_FLAT: [u8; 3] = [216, 233, 243];
 
+/// Glacier domain: ice-free ground where the balance may add ice (a muted violet, apart from
+/// the ice blues and the ground greys).
+pub const DOMAIN_GROUND: [u8; 3] = [150, 128, 196];
+
 /// Succession stages by code (0 ice ... 6 mature forest): label and colour. Lightness steps
 /// down from pioneer to mature forest, so the order of succession reads in greyscale.
 pub const STAGE_PALETTE: [(&str, [u8; 3]); 7] = [
@@ -128,6 +132,8 @@ pub enum LayerKind {
     Lakes,
     /// Steep bare ground, one class ([`crate::steep_ground`]).
     SteepBare,
+    /// The glacier domain, where the balance may add ice ([`crate::glacier_domain`]).
+    Domain,
 }
 
 impl LayerKind {
@@ -140,6 +146,7 @@ impl LayerKind {
             "soil" => Some(LayerKind::Soil),
             "lakes" => Some(LayerKind::Lakes),
             "steep_bare" => Some(LayerKind::SteepBare),
+            "glacier_domain" => Some(LayerKind::Domain),
             _ => name
                 .strip_prefix("cover:")
                 .and_then(|t| t.parse().ok())
@@ -261,7 +268,9 @@ impl LayerRenderer {
             return;
         }
         rgba.clear();
-        if let (LayerKind::Lakes | LayerKind::SteepBare, Some(bed)) = (kind, &self.bed) {
+        if let (LayerKind::Lakes | LayerKind::SteepBare | LayerKind::Domain, Some(bed)) =
+            (kind, &self.bed)
+        {
             rgba.extend_from_slice(&bed.pale_ground_rgba);
         } else {
             rgba.extend_from_slice(&self.ground_rgba);
@@ -335,6 +344,16 @@ impl LayerRenderer {
                         }
                     }
                 }
+            }
+            LayerKind::Domain => {
+                if let Some(start) = timeline.run_start() {
+                    for (idx, &inside) in start.domain.iter().enumerate() {
+                        if inside {
+                            put(rgba, idx, DOMAIN_GROUND, pale(light[idx]));
+                        }
+                    }
+                }
+                timeline.for_each_ice_cell(year, |idx, _| put(rgba, idx, ICE_FLAT, light[idx]));
             }
             LayerKind::SteepBare => {
                 let Some(bed) = &self.bed else { return };
@@ -500,6 +519,22 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
                 crate::lakes::MIN_LAKE_AREA_M2 / 1e6,
                 LAKE_DEPTH_SCALE_M
             ),
+        },
+        LayerKind::Domain => LayerLegend {
+            title: "Glacier domain".into(),
+            unit: String::new(),
+            min: 0.0,
+            max: 0.0,
+            stops: Vec::new(),
+            classes: vec![
+                class("ice-free ground where snow may build ice", DOMAIN_GROUND),
+                class("ice", ICE_FLAT),
+                class("ground where the balance only melts", PALE_GREY),
+            ],
+            note: "The surface balance adds ice only inside the domain: by default the \
+                   starting ice and the ground whose flow path drains into it. Ice may still \
+                   flow out of it and melt there."
+                .into(),
         },
         LayerKind::SteepBare => LayerLegend {
             title: "Steep bare ground".into(),

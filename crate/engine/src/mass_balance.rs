@@ -32,7 +32,7 @@ pub const ENERGY_BALANCE_ELA_SENSITIVITY_M_PER_K: f64 = 87.5;
 
 /// Accumulation-area ratio of a glacier in balance (Dyurgerov, Meier & Bahr 2009, J. Glaciol.
 /// 55(192), from a global set of measured balances; value from memory).
-pub const DEFAULT_BALANCED_AAR: f64 = 0.58;
+pub const BALANCED_AAR: f64 = 0.58;
 
 /// Where the surface balance may add ice.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
@@ -52,12 +52,15 @@ pub struct MassBalanceParams {
     /// `null`: calibrated on the starting glacier (see `calibration_target_mwe_per_a`).
     pub ela_m: Option<f64>,
     /// Glacier-wide mean balance the calibrated ELA gives on the starting glacier, m water
-    /// equivalent per year, -5 to 2 (e.g. a measured geodetic rate). `null`: the ELA where
-    /// the accumulation-area ratio is `balanced_aar`. Only with `ela_m` null.
+    /// equivalent per year, -5 to 2 (e.g. a measured geodetic rate). With `ela_m`,
+    /// `calibration_target_mwe_per_a` and `balanced_aar` all `null` (the default) the target
+    /// is 0: a glacier in balance with the start year's climate.
     pub calibration_target_mwe_per_a: Option<f64>,
-    /// Accumulation-area ratio of a glacier in balance, 0.2 to 0.9. Default 0.58 (Dyurgerov,
-    /// Meier & Bahr 2009, J. Glaciol. 55(192); value from memory).
-    pub balanced_aar: f64,
+    /// Calibrate instead so that this share of the starting glacier lies above the ELA,
+    /// 0.2 to 0.9; 0.58 is the ratio of glaciers in balance (Dyurgerov, Meier & Bahr 2009,
+    /// J. Glaciol. 55(192); value from memory). With this model's linear profile it gives a
+    /// positive balance on many glaciers (see the README), so it is an option, not the default.
+    pub balanced_aar: Option<f64>,
     /// Where the balance may add ice: `drainage` (default: the starting ice and the ground
     /// draining into it), or `whole_grid` (every cell; ice-free ground above the ELA grows
     /// ice). A domain grid named in `grids.glacier_domain` replaces either.
@@ -86,7 +89,7 @@ impl Default for MassBalanceParams {
         MassBalanceParams {
             ela_m: None,
             calibration_target_mwe_per_a: None,
-            balanced_aar: DEFAULT_BALANCED_AAR,
+            balanced_aar: None,
             domain: DomainRule::Drainage,
             snow_redistribution: true,
             snow_limit_slope_deg: 50.0,
@@ -113,14 +116,21 @@ impl MassBalanceParams {
                 2.0,
                 "m w.e./a",
             )?;
-            if self.ela_m.is_some() {
-                return Err(ScenarioError::Invalid {
-                    field: "mass_balance.calibration_target_mwe_per_a".to_string(),
-                    problem: "give ela_m or a calibration target, not both".to_string(),
-                });
-            }
         }
-        check_range("mass_balance.balanced_aar", self.balanced_aar, 0.2, 0.9, "")?;
+        if let Some(ratio) = self.balanced_aar {
+            check_range("mass_balance.balanced_aar", ratio, 0.2, 0.9, "")?;
+        }
+        let n_set = usize::from(self.ela_m.is_some())
+            + usize::from(self.calibration_target_mwe_per_a.is_some())
+            + usize::from(self.balanced_aar.is_some());
+        if n_set > 1 {
+            return Err(ScenarioError::Invalid {
+                field: "mass_balance".to_string(),
+                problem: "give at most one of ela_m, calibration_target_mwe_per_a and \
+                          balanced_aar"
+                    .to_string(),
+            });
+        }
         check_range(
             "mass_balance.snow_limit_slope_deg",
             self.snow_limit_slope_deg,

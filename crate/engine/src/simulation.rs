@@ -178,6 +178,8 @@ pub struct IceSimulation {
     ice_box: Option<CellBox>,
     /// Scratch for one block's interpolation weights.
     block_weights: Vec<f64>,
+    /// Valid fine cells of each ice-grid block.
+    block_valid: Vec<usize>,
 }
 
 impl IceSimulation {
@@ -354,6 +356,7 @@ impl IceSimulation {
                 ela0_m: 0.0,
                 start_ela_m: 0.0,
                 method: ElaMethod::Fixed,
+                mean_balance_mwe_per_a: None,
             },
             relaxation: RelaxationReport {
                 years: 0,
@@ -378,6 +381,7 @@ impl IceSimulation {
             exposure: ExposureTracker::new(&[]),
             summary: Vec::with_capacity(scenario.n_years as usize + 1),
             block_weights: vec![0.0; block * block],
+            block_valid: n_valid,
         };
         simulation.calibration = simulation.calibrate(
             &surface_m,
@@ -386,6 +390,12 @@ impl IceSimulation {
             start_anomaly,
             domain_grid.is_some(),
         )?;
+        if glacier_cells.iter().any(|&n| n > 0) {
+            let start = simulation.ice_grid_thickness_m.clone();
+            let ela = simulation.calibration.start_ela_m;
+            simulation.calibration.mean_balance_mwe_per_a =
+                Some(simulation.glacier_mean_balance_mwe(&start, &glacier_cells, ela));
+        }
         simulation.relax(scenario.relaxation_years, start_anomaly);
         // The fine layer is the downscaled ice grid from the start, so the first year's
         // changes are the model's, not the transfer's.
@@ -413,13 +423,10 @@ impl IceSimulation {
             ela0_m: start_ela_m - shift,
             start_ela_m,
             method,
+            mean_balance_mwe_per_a: None,
         };
         if let Some(ela0) = mb.ela_m {
-            return Ok(ElaCalibration {
-                ela0_m: ela0,
-                start_ela_m: ela0 + shift,
-                method: ElaMethod::Fixed,
-            });
+            return Ok(done(ela0 + shift, ElaMethod::Fixed));
         }
         let mut glacier_surfaces: Vec<f64> = surface_m
             .values
@@ -436,35 +443,33 @@ impl IceSimulation {
             let highest = surface_m.value_range().map_or(0.0, |(_, hi)| f64::from(hi));
             return Ok(done(highest, ElaMethod::NoGlacier));
         }
-        match mb.calibration_target_mwe_per_a {
-            None => {
-                let ratio = mb.balanced_aar;
-                let ela = aar_ela_m(&mut glacier_surfaces, ratio).unwrap_or(0.0);
-                Ok(done(ela, ElaMethod::AccumulationAreaRatio { ratio }))
-            }
-            Some(target) => {
-                let (low, high) = glacier_surfaces
-                    .iter()
-                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &z| {
-                        (lo.min(z), hi.max(z))
-                    });
-                let thickness = self.ice_grid_thickness_m.clone();
-                let ela = ela_for_mean_balance(target, low - 3000.0, high + 3000.0, |ela| {
-                    self.glacier_mean_balance_mwe(&thickness, glacier_cells, ela)
-                })?;
-                Ok(done(
-                    ela,
-                    ElaMethod::MeanBalance {
-                        target_mwe_per_a: target,
-                    },
-                ))
-            }
+        if let Some(ratio) = mb.balanced_aar {
+            let ela = aar_ela_m(&mut glacier_surfaces, ratio).unwrap_or(0.0);
+            return Ok(done(ela, ElaMethod::AccumulationAreaRatio { ratio }));
         }
+        let target = mb.calibration_target_mwe_per_a.unwrap_or(0.0);
+        let (low, high) = glacier_surfaces
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &z| {
+                (lo.min(z), hi.max(z))
+            });
+        let thickness = self.ice_grid_thickness_m.clone();
+        let ela = ela_for_mean_balance(target, low - 3000.0, high + 3000.0, |ela| {
+            self.glacier_mean_balance_mwe(&thickness, glacier_cells, ela)
+        })?;
+        Ok(done(
+            ela,
+            ElaMethod::MeanBalance {
+                target_mwe_per_a: target,
+            },
+        ))
     }
 
     /// Glacier-wide mean balance of the ice-grid state `thickness_m` for the ELA `ela_m`, m
-    /// water equivalent per year: each block's balance at its surface (ablation plus the
-    /// accumulation it keeps, after redistribution), weighted by its fine glacier cells.
+    /// water equivalent per year: the mass the glacier system gains over the glacier's area.
+    /// Each block's glacier cells count its ablation plus the accumulation it keeps (after
+    /// redistribution); its other valid cells count the accumulation alone, since snow that
+    /// stays on ice-free ground of the domain becomes ice too (a geodetic rate measures it).
     pub(crate) fn glacier_mean_balance_mwe(
         &mut self,
         thickness_m: &[f64],
@@ -476,16 +481,13 @@ impl IceSimulation {
             .profile_at_ela(ela_m, self.ice_density_kg_m3);
         self.accumulation_field(thickness_m, &balance);
         let (mut sum, mut weight) = (0.0, 0.0);
-        for (i, &n) in glacier_cells.iter().enumerate() {
-            if n == 0 {
-                continue;
-            }
+        for (i, (&n, &n_valid)) in glacier_cells.iter().zip(&self.block_valid).enumerate() {
             let s = self.surface_scratch[i];
             let accumulation = match self.redistribution {
                 Some(_) => self.kept_scratch[i],
                 None => positive_part(balance.rate_m_per_a(s)) * self.stepper.domain()[i],
             };
-            sum += n as f64 * (balance.ablation_m_per_a(s) + accumulation);
+            sum += n as f64 * balance.ablation_m_per_a(s) + n_valid as f64 * accumulation;
             weight += n as f64;
         }
         sum / weight * self.ice_density_kg_m3 / WATER_DENSITY_KG_M3

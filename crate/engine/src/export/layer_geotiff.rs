@@ -77,6 +77,14 @@ pub fn layer_grid(
             LakeMap::new_lakes(&bed_of(dem, timeline), timeline)
                 .fill_year_depth(timeline, year, values);
         }
+        LayerKind::Domain => {
+            if let Some(start) = timeline.run_start() {
+                for (v, &inside) in values.iter_mut().zip(&start.domain) {
+                    *v = f32::from(u8::from(inside));
+                }
+            }
+            grid.nodata_value = Some(STAGE_NODATA);
+        }
         LayerKind::SteepBare => {
             let bed = bed_of(dem, timeline);
             let slope = terrain::derivatives(&bed, Sun::default()).slope_deg;
@@ -110,7 +118,10 @@ pub fn layer_geotiff(
 ) -> Result<Vec<u8>, ExportError> {
     let grid = layer_grid(timeline, dem, kind, year)?;
     let options = WriteOptions {
-        sample_type: if matches!(kind, LayerKind::Stage | LayerKind::SteepBare) {
+        sample_type: if matches!(
+            kind,
+            LayerKind::Stage | LayerKind::SteepBare | LayerKind::Domain
+        ) {
             SampleType::U8
         } else {
             SampleType::F32

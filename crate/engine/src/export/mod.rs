@@ -136,7 +136,7 @@ pub fn check_layer(timeline: &Timeline, kind: LayerKind) -> Result<(), ExportErr
 }
 
 /// The layer's name for file names: `ice_thickness`, `exposure_year`, `stage`, `soil`,
-/// `cover_<index>`, `lakes`, `steep_bare`.
+/// `cover_<index>`, `lakes`, `steep_bare`, `glacier_domain`.
 pub fn layer_file_stem(kind: LayerKind) -> String {
     match kind {
         LayerKind::IceThickness => "ice_thickness".into(),
@@ -146,6 +146,7 @@ pub fn layer_file_stem(kind: LayerKind) -> String {
         LayerKind::Cover(t) => format!("cover_{t}"),
         LayerKind::Lakes => "lakes".into(),
         LayerKind::SteepBare => "steep_bare".into(),
+        LayerKind::Domain => "glacier_domain".into(),
     }
 }
 
