@@ -2,7 +2,8 @@
 //! gdal_translate, see `tests/fixtures/make_gdal_fixtures.sh`) and the refusals of issue 2.
 
 use forefield_engine::geotiff::{
-    read_geotiff, write_geotiff, write_geotiff_with, SampleType, TiffCompression, WriteOptions,
+    read_geotiff, read_geotiff_with, write_geotiff, write_geotiff_with, ReadOptions, SampleType,
+    TiffCompression, WriteOptions,
 };
 use forefield_engine::{Grid, GridGeometry, LoadProblem, MAX_CELLS};
 use forefield_reference_tests::fixture;
@@ -154,8 +155,10 @@ fn refuses_all_nodata() {
     assert_eq!(err.to_string(), "holes.tif: every cell is nodata");
 }
 
+/// A grid over the cell limit (a LiDAR-sized DEM) is no longer refused: it is coarsened on
+/// load by the smallest whole factor that fits, here 2, with a note.
 #[test]
-fn refuses_grids_over_the_cell_limit() {
+fn grids_over_the_cell_limit_are_coarsened_on_load() {
     let side = (MAX_CELLS as f64).sqrt() as usize + 1;
     let grid = Grid::filled(geometry(side, side), 1.0);
     let options = WriteOptions {
@@ -163,11 +166,64 @@ fn refuses_grids_over_the_cell_limit() {
         compression: TiffCompression::Deflate,
         horizontal_predictor: false,
     };
-    let err = read_geotiff(&write_geotiff_with(&grid, options).unwrap(), "big.tif").unwrap_err();
-    assert!(
-        matches!(err.problem, LoadProblem::TooLarge { cells, .. } if cells == side * side),
-        "{err}"
-    );
+    let bytes = write_geotiff_with(&grid, options).unwrap();
+    let read = read_geotiff_with(&bytes, "big.tif", ReadOptions::default()).unwrap();
+    let g = read.grid.geometry;
+    assert_eq!((g.n_cols, g.n_rows), (side.div_ceil(2), side.div_ceil(2)));
+    assert_eq!(g.cell_size_m, 2.0 * grid.geometry.cell_size_m);
+    assert!(read.grid.values.iter().all(|&v| v == 1.0));
+    let note = read.note.expect("a note");
+    assert!(note.contains("coarsened on load"), "{note}");
+}
+
+/// Coarsening while reading, chunk by chunk, against block means of the grid read whole:
+/// GDAL-written tiles (big- and little-endian, LZW and Deflate with predictors) and strips
+/// with nodata wedges. Each block is the mean of its valid cells, nodata when fewer than half
+/// are valid (sums of a few f32 values are exact in f64, so the results agree exactly).
+#[test]
+fn coarsening_on_load_is_the_block_mean_of_the_whole_grid() {
+    for name in [
+        "gdal_f32_tiled_lzw_bigendian.tif",
+        "gdal_i16_tiled_deflate_pred2.tif",
+        "gdal_u16_tiled_deflate_pred2_bigendian.tif",
+        "ridge_valley_dem.tif",
+    ] {
+        let whole = read_geotiff(&fixture(name), name).unwrap();
+        let g = whole.geometry;
+        for k in [2usize, 3] {
+            let options = ReadOptions {
+                cell_size_m: Some(k as f64 * g.cell_size_m),
+                ..ReadOptions::default()
+            };
+            let read = read_geotiff_with(&fixture(name), name, options).unwrap();
+            let c = read.grid.geometry;
+            assert_eq!(
+                (c.n_cols, c.n_rows),
+                (g.n_cols.div_ceil(k), g.n_rows.div_ceil(k))
+            );
+            assert_eq!((c.west_m, c.north_m), (g.west_m, g.north_m));
+            for row in 0..c.n_rows {
+                for col in 0..c.n_cols {
+                    let (mut sum, mut n, mut total) = (0.0_f64, 0u32, 0u32);
+                    for r in row * k..((row + 1) * k).min(g.n_rows) {
+                        for q in col * k..((col + 1) * k).min(g.n_cols) {
+                            total += 1;
+                            if let Some(v) = whole.get(q, r) {
+                                sum += f64::from(v);
+                                n += 1;
+                            }
+                        }
+                    }
+                    let expected = (2 * n >= total && n > 0).then(|| (sum / f64::from(n)) as f32);
+                    assert_eq!(
+                        read.grid.get(col, row),
+                        expected,
+                        "{name} k {k} ({col}, {row})"
+                    );
+                }
+            }
+        }
+    }
 }
 
 #[test]

@@ -31,13 +31,19 @@ pub fn bench(args: &[String]) -> Result<()> {
     };
     let only = crate::flag(args, "--only")?;
     if let Some(only) = &only {
-        if !["ice", "coupled", "dispersal"].contains(&only.as_str()) {
-            bail!("--only {only:?}: give ice, coupled or dispersal");
+        if !["ice", "coupled", "dispersal", "large_dem"].contains(&only.as_str()) {
+            bail!("--only {only:?}: give ice, coupled, dispersal or large_dem");
         }
     }
     let wanted = |part: &str| only.as_deref().is_none_or(|o| o == part);
     if wanted("dispersal") {
         bench_dispersal(repeats)?;
+        if only.is_some() {
+            return Ok(());
+        }
+    }
+    if wanted("large_dem") {
+        bench_large_dem()?;
         if only.is_some() {
             return Ok(());
         }
@@ -60,6 +66,67 @@ pub fn bench(args: &[String]) -> Result<()> {
         let stages = read("valley_vegetation.tif")?;
         bench_coupled(&bed, &ice, &stages, &scenario, repeats)?;
     }
+    Ok(())
+}
+
+/// Peak resident memory (VmHWM) of this process, bytes; `reset` first restarts the peak from
+/// the present use (Linux: writing 5 to /proc/self/clear_refs). `None` where unavailable.
+fn peak_memory_bytes(reset: bool) -> Option<u64> {
+    if reset {
+        std::fs::write("/proc/self/clear_refs", "5").ok()?;
+    }
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kb * 1024)
+}
+
+/// A LiDAR-sized DEM (10,000 x 10,000 cells of 1 m in uncompressed strips, written strip by strip)
+/// opened as the page and `forefield run` open a terrain: coarsened on load to fit the model's
+/// cell limit. Reports the time and the peak memory the load adds above the file's bytes.
+fn bench_large_dem() -> Result<()> {
+    const SIDE: usize = 10_000;
+    let geometry = forefield_engine::GridGeometry {
+        n_cols: SIDE,
+        n_rows: SIDE,
+        cell_size_m: 1.0,
+        west_m: 400_000.0,
+        north_m: 5_100_000.0,
+        epsg: Some(32632),
+    };
+    // Smooth ridges with metre-scale roughness, as a LiDAR surface has.
+    let bytes = forefield_engine::geotiff::write_geotiff_rows(&geometry, 16, |row, values| {
+        let y = row as f64;
+        for (col, v) in values.iter_mut().enumerate() {
+            let x = col as f64;
+            *v = (2500.0
+                + 400.0 * f64::sin(x / 1500.0) * f64::sin(y / 1100.0)
+                + 0.3 * f64::sin(x * 1.7 + y * 0.9)) as f32;
+        }
+    })
+    .map_err(|e| anyhow::anyhow!("{e}"))?;
+    let before = peak_memory_bytes(true);
+    let started = Instant::now();
+    let read = forefield_engine::geotiff::read_geotiff_with(
+        &bytes,
+        "large.tif",
+        forefield_engine::geotiff::ReadOptions::default(),
+    )?;
+    let seconds = started.elapsed().as_secs_f64();
+    let peak = peak_memory_bytes(false);
+    let g = read.grid.geometry;
+    let added_mib = match (before, peak) {
+        (Some(b), Some(p)) => format!("{:.1}", p.saturating_sub(b) as f64 / 1048576.0),
+        _ => "null".into(),
+    };
+    outln!(
+        "{{\"bench\":\"large_dem_load\",\"side\":\"native\",\"source_grid\":\"{SIDE}x{SIDE}\",\"source_cell_m\":1,\"file_mib\":{:.1},\"grid\":\"{}x{}\",\"cell_m\":{},\"seconds\":{seconds:.3},\"peak_memory_added_mib\":{added_mib},\"full_grid_mib\":{:.0}}}",
+        bytes.len() as f64 / 1048576.0,
+        g.n_cols,
+        g.n_rows,
+        g.cell_size_m,
+        (SIDE * SIDE * 5) as f64 / 1048576.0,
+    );
     Ok(())
 }
 

@@ -11,7 +11,7 @@ use anyhow::{bail, Context, Result};
 use forefield_engine::export::csv_tables::summary_csv;
 use forefield_engine::export::{ExportMeta, CAUTION};
 use forefield_engine::exposure::{ICE_FREE_AT_START, STILL_ICE_COVERED};
-use forefield_engine::geotiff::{read_geotiff, write_geotiff};
+use forefield_engine::geotiff::{read_geotiff, write_geotiff, ReadOptions};
 use forefield_engine::grid::Grid;
 use forefield_engine::ice_outline::thickness_from_outline;
 use forefield_engine::outline::outline_mask;
@@ -41,6 +41,9 @@ pub fn usage() -> String {
     --vegetation FILE   GeoTIFF of succession stage codes 0-6 to start the plants from
                         (default: each cell starts at its potential vegetation)
     --ice-only          run the ice model alone
+    --cell-size M       working cell size, m: the surface DEM is coarsened on load to the
+                        whole multiple of its cell nearest M (area mean); a DEM over the
+                        model's cell limit is coarsened to fit in any case
 {EXPORT_OPTIONS}"
     )
 }
@@ -51,6 +54,7 @@ pub fn run(args: &[String]) -> Result<()> {
     let mut out_dir = PathBuf::from("out");
     let mut vegetation: Option<PathBuf> = None;
     let mut ice_only = false;
+    let mut cell_size_m: Option<f64> = None;
     let mut request = ExportRequest::default();
     let mut words = args.iter();
     while let Some(word) = words.next() {
@@ -67,6 +71,10 @@ pub fn run(args: &[String]) -> Result<()> {
                 None => bail!("--vegetation needs a GeoTIFF file"),
             },
             "--ice-only" => ice_only = true,
+            "--cell-size" => match words.next().map(|w| w.parse::<f64>()) {
+                Some(Ok(size)) if size.is_finite() && size > 0.0 => cell_size_m = Some(size),
+                _ => bail!("--cell-size needs a cell size in metres, e.g. --cell-size 10"),
+            },
             flag if flag.starts_with("--") => bail!("run: unknown option {flag:?}\n\n{}", usage()),
             path if scenario_path.is_none() => scenario_path = Some(PathBuf::from(path)),
             extra => bail!("run: unexpected argument {extra:?}"),
@@ -88,7 +96,7 @@ pub fn run(args: &[String]) -> Result<()> {
         bed,
         thickness,
         stages,
-    } = load_inputs(&scenario, base, vegetation.as_deref())?;
+    } = load_inputs(&scenario, base, vegetation.as_deref(), cell_size_m)?;
     let domain = match scenario.grids.glacier_domain.as_deref() {
         Some(name) => {
             let (grid, note) = fit_domain(&terrain.geometry, &read_bytes(&base.join(name))?, name)?;
@@ -198,7 +206,12 @@ fn read_bytes(path: &Path) -> Result<Vec<u8>> {
 /// The run's grids. A surface DEM with a thickness grid, a GeoJSON outline or no ice goes
 /// through the engine's run inputs exactly as the page's files do (ice and vegetation
 /// fitted onto the terrain); the other combinations the page does not offer are read here.
-fn load_inputs(scenario: &Scenario, base: &Path, vegetation: Option<&Path>) -> Result<IceInputs> {
+fn load_inputs(
+    scenario: &Scenario,
+    base: &Path,
+    vegetation: Option<&Path>,
+    cell_size_m: Option<f64>,
+) -> Result<IceInputs> {
     let grids = &scenario.grids;
     let vegetation_file = match vegetation {
         Some(path) => Some((read_bytes(path)?, path.display().to_string())),
@@ -233,10 +246,15 @@ fn load_inputs(scenario: &Scenario, base: &Path, vegetation: Option<&Path>) -> R
             }
             (None, None) => IceInput::None,
         };
+        let terrain_options = ReadOptions {
+            cell_size_m,
+            ..ReadOptions::default()
+        };
         let grids = read_run_inputs(
             scenario,
             &surface_bytes,
             surface_name,
+            terrain_options,
             ice,
             vegetation_file
                 .as_ref()
@@ -251,6 +269,12 @@ fn load_inputs(scenario: &Scenario, base: &Path, vegetation: Option<&Path>) -> R
             thickness: grids.ice_thickness_m,
             stages: grids.vegetation,
         });
+    }
+    if cell_size_m.is_some() {
+        bail!(
+            "--cell-size coarsens the surface DEM; this scenario gives the bed (or a glacier \
+             mask GeoTIFF) instead: coarsen those grids first or name surface_elevation"
+        );
     }
     let mut inputs = load_ice_inputs(scenario, base)?;
     if let Some((bytes, name)) = &vegetation_file {

@@ -5,6 +5,12 @@
 //! predictors (all decoded by `tiff`). Georeference comes from ModelPixelScale (33550) with
 //! ModelTiepoint (33922), or from ModelTransformation (34264) without rotation; the CRS from
 //! the GeoKeyDirectory (34735); nodata from GDAL_NODATA (42113).
+//!
+//! A grid with more cells than the model can hold (a LiDAR DEM of 1-2 m over a park), or one
+//! asked for at a coarser working cell size, is coarsened while it is read: strip by strip or
+//! tile by tile into whole blocks of k x k cells (the area mean of the block's valid cells,
+//! nodata where fewer than half are valid; or the block's central cell for class codes), so
+//! the full-resolution grid is never held (common practice, no source).
 
 use std::io::Cursor;
 
@@ -33,12 +39,74 @@ const RASTER_PIXEL_IS_POINT: u16 = 2;
 const UNIT_METRE: u16 = 9001;
 const USER_DEFINED: u16 = 32767;
 
-/// Reads a single-band GeoTIFF into a grid. `source_name` is used in error messages.
-pub fn read_geotiff(bytes: &[u8], source_name: &str) -> Result<Grid, LoadError> {
-    read(bytes).map_err(|problem| LoadError::new(source_name, problem))
+/// Most cells a source grid may claim, coarsened or not (20,000 x 20,000): a header beyond it
+/// is refused before anything is decoded.
+pub const MAX_SOURCE_CELLS: usize = 400_000_000;
+
+/// How blocks of cells become one when a grid is coarsened on load.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Coarsening {
+    /// Area mean of the block's valid cells (elevations, thickness).
+    Mean,
+    /// The block's central cell (class codes).
+    Central,
 }
 
-fn read(bytes: &[u8]) -> Result<Grid, LoadProblem> {
+/// How to read a grid: the most cells to keep and an optional working cell size.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ReadOptions {
+    /// Coarsen by the smallest whole factor that brings the grid within this many cells.
+    pub max_cells: usize,
+    /// Coarsen to the whole multiple of the source cell nearest this size, m.
+    pub cell_size_m: Option<f64>,
+    pub coarsening: Coarsening,
+}
+
+impl Default for ReadOptions {
+    fn default() -> Self {
+        ReadOptions {
+            max_cells: MAX_CELLS,
+            cell_size_m: None,
+            coarsening: Coarsening::Mean,
+        }
+    }
+}
+
+/// A grid read, with a note when it was coarsened on load.
+#[derive(Clone, Debug, PartialEq)]
+pub struct ReadGrid {
+    pub grid: Grid,
+    pub note: Option<String>,
+}
+
+/// Reads a single-band GeoTIFF into a grid, coarsened by area mean if it holds more than
+/// [`MAX_CELLS`] cells. `source_name` is used in error messages.
+pub fn read_geotiff(bytes: &[u8], source_name: &str) -> Result<Grid, LoadError> {
+    read_geotiff_with(bytes, source_name, ReadOptions::default()).map(|r| r.grid)
+}
+
+/// Reads a single-band GeoTIFF as `options` ask, saying in the note how it was coarsened.
+pub fn read_geotiff_with(
+    bytes: &[u8],
+    source_name: &str,
+    options: ReadOptions,
+) -> Result<ReadGrid, LoadError> {
+    read(bytes, options).map_err(|problem| LoadError::new(source_name, problem))
+}
+
+/// The coarsening factor for a source grid: 1, or the whole factor that gives the working
+/// cell size asked, raised until the grid fits.
+fn coarsening_factor(n_cols: usize, n_rows: usize, cell_m: f64, options: &ReadOptions) -> usize {
+    let mut k = options
+        .cell_size_m
+        .map_or(1, |c| (c / cell_m).round().max(1.0) as usize);
+    while n_cols.div_ceil(k) * n_rows.div_ceil(k) > options.max_cells {
+        k += 1;
+    }
+    k
+}
+
+fn read(bytes: &[u8], options: ReadOptions) -> Result<ReadGrid, LoadProblem> {
     if bytes.len() < 8 || !(bytes.starts_with(b"II") || bytes.starts_with(b"MM")) {
         return Err(LoadProblem::NotTiff);
     }
@@ -62,12 +130,12 @@ fn read(bytes: &[u8]) -> Result<Grid, LoadProblem> {
         return Err(LoadProblem::TooSmall { n_cols, n_rows });
     }
     let cells = n_cols * n_rows;
-    if cells > MAX_CELLS {
+    if cells > MAX_SOURCE_CELLS {
         return Err(LoadProblem::TooLarge {
             n_cols,
             n_rows,
             cells,
-            limit: MAX_CELLS,
+            limit: MAX_SOURCE_CELLS,
         });
     }
     match decoder.colortype().map_err(tiff_problem)? {
@@ -95,6 +163,10 @@ fn read(bytes: &[u8]) -> Result<Grid, LoadProblem> {
         None => None,
     };
 
+    let k = coarsening_factor(n_cols, n_rows, geometry.cell_size_m, &options);
+    if k > 1 {
+        return read_coarsened(&mut decoder, geometry, nodata_value, k, options);
+    }
     let image = decoder.read_image().map_err(tiff_problem)?;
     let (values, nodata) = to_f32(image, nodata_value)?;
     if values.len() != cells {
@@ -107,11 +179,119 @@ fn read(bytes: &[u8]) -> Result<Grid, LoadProblem> {
     if nodata.iter().all(|&m| m) {
         return Err(LoadProblem::AllNodata);
     }
-    Ok(Grid {
-        geometry,
-        values,
-        nodata,
-        nodata_value,
+    Ok(ReadGrid {
+        grid: Grid {
+            geometry,
+            values,
+            nodata,
+            nodata_value,
+        },
+        note: None,
+    })
+}
+
+/// Reads the image chunk by chunk into blocks of `k x k` source cells.
+fn read_coarsened<R: std::io::Read + std::io::Seek>(
+    decoder: &mut Decoder<R>,
+    source: GridGeometry,
+    nodata_value: Option<f64>,
+    k: usize,
+    options: ReadOptions,
+) -> Result<ReadGrid, LoadProblem> {
+    let (n_cols, n_rows) = (source.n_cols, source.n_rows);
+    let (out_cols, out_rows) = (n_cols.div_ceil(k), n_rows.div_ceil(k));
+    let n_out = out_cols * out_rows;
+    let mut sums = vec![0.0_f64; n_out];
+    let mut counts = vec![0u32; n_out];
+    let (chunk_w, chunk_h) = decoder.chunk_dimensions();
+    let (chunk_w, chunk_h) = (chunk_w as usize, chunk_h as usize);
+    if chunk_w == 0 || chunk_h == 0 {
+        return Err(LoadProblem::CorruptTiff("chunk of zero size".into()));
+    }
+    let across = n_cols.div_ceil(chunk_w);
+    let n_chunks = across * n_rows.div_ceil(chunk_h);
+    // The central source cell of a block, for class codes.
+    let centre = |i: usize, n: usize| (i * k + k / 2).min(n - 1);
+    for chunk in 0..n_chunks {
+        let (col0, row0) = ((chunk % across) * chunk_w, (chunk / across) * chunk_h);
+        let image = decoder.read_chunk(chunk as u32).map_err(tiff_problem)?;
+        let (values, missing) = to_f32(image, nodata_value)?;
+        let width = chunk_w.min(n_cols - col0);
+        let height = values.len() / width.max(1);
+        for r in 0..height.min(n_rows - row0) {
+            let row = row0 + r;
+            let out_row = row / k;
+            for c in 0..width {
+                let i = r * width + c;
+                if missing[i] {
+                    continue;
+                }
+                let col = col0 + c;
+                let out = out_row * out_cols + col / k;
+                match options.coarsening {
+                    Coarsening::Mean => {
+                        sums[out] += f64::from(values[i]);
+                        counts[out] += 1;
+                    }
+                    Coarsening::Central => {
+                        if row == centre(out_row, n_rows) && col == centre(col / k, n_cols) {
+                            sums[out] = f64::from(values[i]);
+                            counts[out] = 1;
+                        }
+                    }
+                }
+            }
+        }
+    }
+    let mut values = vec![f32::NAN; n_out];
+    let mut nodata = vec![true; n_out];
+    for out in 0..n_out {
+        let (out_row, out_col) = (out / out_cols, out % out_cols);
+        let block_cells = (k.min(n_rows - out_row * k) * k.min(n_cols - out_col * k)) as u32;
+        let enough = match options.coarsening {
+            Coarsening::Mean => 2 * counts[out] >= block_cells,
+            Coarsening::Central => counts[out] == 1,
+        };
+        if enough && counts[out] > 0 {
+            values[out] = (sums[out] / f64::from(counts[out])) as f32;
+            nodata[out] = false;
+        }
+    }
+    if nodata.iter().all(|&m| m) {
+        return Err(LoadProblem::AllNodata);
+    }
+    let geometry = GridGeometry {
+        n_cols: out_cols,
+        n_rows: out_rows,
+        cell_size_m: source.cell_size_m * k as f64,
+        ..source
+    };
+    let why = if n_cols * n_rows > options.max_cells
+        && options
+            .cell_size_m
+            .is_none_or(|c| (c / source.cell_size_m).round() < k as f64)
+    {
+        format!("to fit the {} cells the model holds", options.max_cells)
+    } else {
+        "as the working cell size asks".to_string()
+    };
+    let how = match options.coarsening {
+        Coarsening::Mean => "area mean of each block's valid cells",
+        Coarsening::Central => "each block's central cell",
+    };
+    let note = format!(
+        "{} x {} cells of {} m coarsened on load to {out_cols} x {out_rows} cells of {} m \
+         ({k} x {k} blocks, {how}) {why}",
+        n_cols, n_rows, source.cell_size_m, geometry.cell_size_m
+    );
+    Ok(ReadGrid {
+        grid: Grid {
+            geometry,
+            values,
+            nodata,
+            nodata_value,
+        },
+        note: Some(note),
     })
 }
 
@@ -428,6 +608,36 @@ pub fn write_geotiff_described(
     Ok(buffer.into_inner())
 }
 
+/// A Float32 GeoTIFF (uncompressed strips of `rows_per_strip` rows; the `tiff` encoder
+/// compresses only whole images) written strip by strip from `fill_row(row, values)`, so the
+/// grid is never held whole (the benchmark's LiDAR-sized DEM; NaN is nodata).
+pub fn write_geotiff_rows(
+    geometry: &GridGeometry,
+    rows_per_strip: usize,
+    mut fill_row: impl FnMut(usize, &mut [f32]),
+) -> Result<Vec<u8>, WriteError> {
+    let err = |e: TiffError| WriteError(e.to_string());
+    let mut buffer = Cursor::new(Vec::new());
+    let mut encoder = TiffEncoder::new(&mut buffer).map_err(err)?;
+    let (w, h) = (geometry.n_cols, geometry.n_rows);
+    let mut image = encoder
+        .new_image::<colortype::Gray32Float>(w as u32, h as u32)
+        .map_err(err)?;
+    write_geo_tags(image.encoder(), geometry, Some(f64::NAN))?;
+    let rows_per_strip = rows_per_strip.clamp(1, h);
+    image.rows_per_strip(rows_per_strip as u32).map_err(err)?;
+    let mut strip = vec![0.0_f32; w * rows_per_strip];
+    for first in (0..h).step_by(rows_per_strip) {
+        let n = rows_per_strip.min(h - first);
+        for (r, row) in strip[..n * w].chunks_exact_mut(w).enumerate() {
+            fill_row(first + r, row);
+        }
+        image.write_strip(&strip[..n * w]).map_err(err)?;
+    }
+    image.finish().map_err(err)?;
+    Ok(buffer.into_inner())
+}
+
 fn write_description<W: std::io::Write + std::io::Seek, K: tiff::encoder::TiffKind>(
     dir: &mut tiff::encoder::DirectoryEncoder<'_, W, K>,
     description: Option<&str>,
@@ -563,5 +773,40 @@ mod tests {
             1, 1, 0, 3, 1024, 0, 1, 1, 2049, 34737, 7, 0, 3072, 0, 1, 32633,
         ];
         assert_eq!(parse_geo_keys(&dir), vec![(1024, 1), (3072, 32633)]);
+    }
+}
+
+#[cfg(test)]
+mod row_writer_tests {
+    use super::*;
+
+    #[test]
+    fn rows_written_strip_by_strip_read_back_whole_and_coarsened() {
+        let g = GridGeometry {
+            n_cols: 37,
+            n_rows: 41,
+            cell_size_m: 2.0,
+            west_m: 400_000.0,
+            north_m: 5_000_000.0,
+            epsg: Some(32632),
+        };
+        let value = |r: usize, c: usize| (r * 100 + c) as f32;
+        let bytes = write_geotiff_rows(&g, 16, |r, row| {
+            for (c, v) in row.iter_mut().enumerate() {
+                *v = value(r, c);
+            }
+        })
+        .unwrap();
+        let whole = read_geotiff(&bytes, "rows.tif").unwrap();
+        assert_eq!(whole.geometry, g);
+        assert_eq!(whole.get(36, 40), Some(value(40, 36)));
+        let options = ReadOptions {
+            cell_size_m: Some(4.0),
+            ..ReadOptions::default()
+        };
+        let read = read_geotiff_with(&bytes, "rows.tif", options).unwrap();
+        // Block (0, 0) holds rows 0-1, columns 0-1: mean 50.5.
+        assert_eq!(read.grid.get(0, 0), Some(50.5));
+        assert!(read.note.unwrap().contains("working cell size"));
     }
 }

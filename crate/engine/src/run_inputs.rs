@@ -6,7 +6,7 @@
 use thiserror::Error;
 
 use crate::align::{fit_to, Resampling};
-use crate::geotiff::read_geotiff;
+use crate::geotiff::{read_geotiff, read_geotiff_with, Coarsening, ReadOptions};
 use crate::grid::{Grid, GridGeometry};
 use crate::ice_outline::{thickness_from_outline, OutlineError as EstimateError};
 use crate::load_error::{LoadError, LoadProblem};
@@ -88,7 +88,12 @@ pub fn fit_vegetation(
     bytes: &[u8],
     name: &str,
 ) -> Result<(Grid, Option<String>), LoadError> {
-    let grid = read_geotiff(bytes, name)?;
+    // Class codes are never averaged: a grid too large keeps each block's central cell.
+    let options = ReadOptions {
+        coarsening: Coarsening::Central,
+        ..ReadOptions::default()
+    };
+    let grid = read_geotiff_with(bytes, name, options)?.grid;
     let max_code = (N_STAGES - 1) as f32;
     if let Some(&bad) = grid
         .values
@@ -177,18 +182,24 @@ pub fn outline_thickness(
     Ok((estimate.ice_thickness_m, note))
 }
 
-/// Reads the surface DEM and fits the ice and vegetation onto it; the bed is the surface less
-/// the ice.
+/// Reads the surface DEM (coarsened on load as `terrain_options` ask) and fits the ice and
+/// vegetation onto it; the bed is the surface less the ice.
 pub fn read_run_inputs(
     scenario: &Scenario,
     surface_bytes: &[u8],
     surface_name: &str,
+    terrain_options: ReadOptions,
     ice: IceInput<'_>,
     vegetation: Option<(&[u8], &str)>,
 ) -> Result<RunInputs, RunInputError> {
-    let surface_m = read_geotiff(surface_bytes, surface_name)?;
+    let read = read_geotiff_with(surface_bytes, surface_name, terrain_options)?;
+    let surface_m = read.grid;
     let terrain = surface_m.geometry;
-    let mut notes = Vec::new();
+    let mut notes: Vec<String> = read
+        .note
+        .map(|n| format!("{surface_name}: {n}"))
+        .into_iter()
+        .collect();
     let ice_thickness_m = match ice {
         IceInput::None => Grid::filled(terrain, 0.0),
         IceInput::Thickness { bytes, name } => {
@@ -275,6 +286,7 @@ mod tests {
             &Scenario::default(),
             &tiff(&surface),
             "dem.tif",
+            ReadOptions::default(),
             IceInput::Thickness {
                 bytes: &tiff(&ice),
                 name: "ice.tif",

@@ -10,7 +10,7 @@ use forefield_engine::export::png_snapshot::snapshot_png;
 use forefield_engine::export::{
     bed_renderer, layer_file_stem, layer_kind, ExportError, ExportMeta,
 };
-use forefield_engine::geotiff::read_geotiff;
+use forefield_engine::geotiff::{read_geotiff_with, ReadGrid, ReadOptions};
 use forefield_engine::heightmap_png::read_heightmap_png;
 use forefield_engine::layers::{self, LayerRenderer};
 use forefield_engine::outline::read_outline;
@@ -180,13 +180,15 @@ impl Workspace {
         sidecar_json: Option<String>,
     ) -> Result<JsValue, JsError> {
         let dem = match sidecar_json {
-            Some(sidecar) => read_heightmap_png(bytes, &sidecar, file_name),
-            None => read_geotiff(bytes, file_name),
+            Some(sidecar) => read_heightmap_png(bytes, &sidecar, file_name)
+                .map(|grid| ReadGrid { grid, note: None }),
+            None => read_geotiff_with(bytes, file_name, ReadOptions::default()),
         }
         .map_err(to_js_error)?;
+        let ReadGrid { grid: dem, note } = dem;
         let (lo, hi) = terrain::check_elevations(&dem, file_name).map_err(to_js_error)?;
         let derivatives = terrain::derivatives(&dem, Sun::default());
-        let mut notes = Vec::new();
+        let mut notes: Vec<String> = note.into_iter().collect();
         if dem.geometry.epsg.is_none() {
             notes.push("The file states no EPSG code; coordinates are shown as given.".into());
         }
@@ -706,9 +708,15 @@ fn read_run_inputs(
     let scenario =
         Scenario::from_json(scenario_json).map_err(|e| JsError::new(&format!("scenario: {e}")))?;
     let ice = ice_input(ice_bytes, ice_name)?;
-    let grids =
-        run_inputs::read_run_inputs(&scenario, surface_bytes, surface_name, ice, vegetation)
-            .map_err(|e| JsError::new(&e.to_string()))?;
+    let grids = run_inputs::read_run_inputs(
+        &scenario,
+        surface_bytes,
+        surface_name,
+        ReadOptions::default(),
+        ice,
+        vegetation,
+    )
+    .map_err(|e| JsError::new(&e.to_string()))?;
     Ok(RunInputs { scenario, grids })
 }
 
