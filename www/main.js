@@ -192,7 +192,8 @@ async function boot() {
       stage: `Succession stage in ${currentYear()}`,
       soil: `Soil development index in ${currentYear()}`,
       lakes: `New lakes (potential) by depth in ${currentYear()}; a planning indication, not a hazard assessment`,
-      steep_bare: `Steep bare ground in ${currentYear()}; a planning indication, not a hazard assessment` }[layer]
+      steep_bare: `Steep bare ground in ${currentYear()}; a planning indication, not a hazard assessment`,
+      glacier_domain: `Glacier domain (where snow may build ice), ice in ${currentYear()}` }[layer]
       ?? `Cover of ${typeName} in ${currentYear()}`;
     element('map').setAttribute('aria-label', label);
     const lakeArea = layer === 'lakes' ? timelineInfo.lake_area_km2[currentYear() - timelineInfo.start_year] : null;
@@ -396,6 +397,20 @@ async function boot() {
     runStatus.textContent = text;
   }
 
+  /** The run's start-up (ELA and how it was set, relaxation, glacier domain), under the run
+   *  status and, for the ELA, under its field in the form. */
+  function showRunNotes(notes) {
+    const list = element('run-notes');
+    list.replaceChildren(...(notes ?? []).map((note) => {
+      const item = document.createElement('li');
+      item.textContent = note;
+      return item;
+    }));
+    list.hidden = !notes?.length;
+    const ela = notes?.find((note) => note.startsWith('ELA '));
+    form.setNote('mass_balance.ela_m', ela ? `Last run: ${ela}.` : null);
+  }
+
   function makeWorker() {
     const created = new Worker('./worker.js', { type: 'module' });
     created.onmessage = (event) => onWorkerMessage(event.data);
@@ -429,6 +444,7 @@ async function boot() {
       progress.value = progress.max;
       const mib = timelineInfo.memory_bytes / 2 ** 20;
       setRunState('done', `Done: ${timelineInfo.start_year} to ${timelineInfo.last_year}. Timeline ${formatNumber(mib, 1)} MiB.`);
+      showRunNotes(timelineInfo.run_notes);
       const names = timelineInfo.type_names;
       element('cover-layers').replaceChildren(...names.map((name, index) => {
         const option = document.createElement('option');

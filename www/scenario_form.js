@@ -151,10 +151,13 @@ export class ScenarioForm {
       const error = element('p', 'field-error');
       error.id = `${id}-error`;
       error.hidden = true;
-      input.setAttribute('aria-describedby', `${hint.id} ${error.id}`);
-      const entry = { field, path: field.path, input, error };
+      const note = element('p', 'field-note');
+      note.id = `${id}-note`;
+      note.hidden = true;
+      input.setAttribute('aria-describedby', `${hint.id} ${error.id} ${note.id}`);
+      const entry = { field, path: field.path, input, error, note };
       input.addEventListener('input', () => this.readField(entry));
-      wrapper.append(label, input, error, hint);
+      wrapper.append(label, input, error, note, hint);
       groups.get(field.group).append(wrapper);
       this.inputs.set(field.path, entry);
     }
@@ -350,6 +353,14 @@ export class ScenarioForm {
   }
 
   /** The stored scenario if the engine still accepts it, else the defaults. */
+  /** Shows (or with null hides) a note under a field, e.g. what the last run used. */
+  setNote(path, text) {
+    const entry = this.inputs.get(path);
+    if (!entry) return;
+    entry.note.hidden = !text;
+    entry.note.textContent = text ?? '';
+  }
+
   restore() {
     try {
       const text = localStorage.getItem(STORAGE_KEY);

@@ -115,7 +115,8 @@ describe('a run of the sample scenario', () => {
     assert.equal(shownNumber(await page.locator('#hi-exposed').innerText()), engine.year_exposed);
     const shownIce = shownNumber(await page.locator('#hi-ice').innerText());
     const engineIce = engine.ice_thickness_m[engine.years.indexOf(yearWithIce)];
-    assert.ok(Math.abs(shownIce - engineIce) <= 0.06, `panel ${shownIce} m, engine ${engineIce} m`);
+    // Kept in 0.05 m steps, shown to 0.1 m: within 0.025 + 0.05 m.
+    assert.ok(Math.abs(shownIce - engineIce) <= 0.076, `panel ${shownIce} m, engine ${engineIce} m`);
     assert.match(await page.locator('#hi-ice-label').innerText(), new RegExp(String(yearWithIce)));
 
     // Every year of the stored history against the engine: within the 0.05 m storage step

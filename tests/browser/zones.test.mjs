@@ -3,7 +3,8 @@
 // and the zone table is checked against the cells' own histories (window.forefield.cellHistory,
 // the cell-history path, not the zone code); the zone CSV download is read with csv-parse
 // (RFC 4180) and must be byte-identical to `forefield export --zone` for the same run. A zone
-// in degrees is refused by name and the zone before stays; a zone drawn on the map counts the
+// in degrees is converted to the terrain's UTM zone and, off the terrain, refused by name while
+// the zone before stays; a zone drawn on the map counts the
 // cells its corners enclose and its saved GeoJSON gives the command line the same table;
 // Shift-drop opens a zone while a plain drop still takes a glacier outline.
 
@@ -164,7 +165,7 @@ describe('a zone from GeoJSON', () => {
       'the page and the command line should write the same zone CSV');
   });
 
-  test('a zone in degrees is refused by name and the zone before stays', async () => {
+  test('a zone in degrees is converted to the terrain\'s UTM zone; off the terrain it is refused by name and the zone before stays', async () => {
     const { page } = session;
     const before = await page.evaluate(() => window.forefield.zoneTimeline());
     const degrees = join(dir, 'lonlat.geojson');
@@ -172,7 +173,8 @@ describe('a zone from GeoJSON', () => {
       coordinates: [[[-30.2, 44.8], [-30.1, 44.8], [-30.1, 44.9], [-30.2, 44.8]]] }));
     await page.setInputFiles('#zone-input', degrees);
     const message = await expectRefused('lonlat.geojson');
-    assert.match(message, /degrees/);
+    // Converted to UTM 26N, it lands some 230 km west of the invented valley.
+    assert.match(message, /cover no cell centre of the grid \(outline extent 2\d{5}\.\.2\d{5} E/);
     assert.match(await page.locator('#zone-summary').innerText(), /^tongue\.geojson:/);
     const after = await page.evaluate(() => window.forefield.zoneTimeline());
     assert.equal(after.name, 'tongue.geojson');

@@ -91,6 +91,8 @@ struct TimelineInfo {
     cover_keyframe_interval: Option<u32>,
     /// Area of the new lakes ice-free at the end of each year, start first, km2.
     lake_area_km2: Vec<f64>,
+    /// How the run's ice was set up: the ELA and its calibration, relaxation, domain.
+    run_notes: Vec<String>,
 }
 
 /// One cell through the recorded years.
@@ -396,6 +398,10 @@ impl Workspace {
             type_names: timeline.type_names().to_vec(),
             stage_keyframe_interval: timeline.plant_intervals().map(|i| i.0),
             cover_keyframe_interval: timeline.plant_intervals().map(|i| i.1),
+            run_notes: timeline
+                .run_start()
+                .map(|s| s.notes.clone())
+                .unwrap_or_default(),
             lake_area_km2: renderer.lake_map().map_or_else(Vec::new, |lakes| {
                 (timeline.start_year()..=timeline.last_year())
                     .map(|year| lakes.ice_free_area_m2(&timeline, year) / 1e6)
