@@ -141,6 +141,8 @@ async function boot() {
   // Succession stage codes at the start (the sample has its own; other terrain starts from
   // each cell's potential vegetation).
   let vegetation = null;
+  // A glacier domain the planner gave (else the engine's drainage rule).
+  let domain = null;
   let lastRun = null;
   let summary = null;
   let summaryCsv = null;
@@ -296,7 +298,9 @@ async function boot() {
       : sample ? 'sample ice grid' : 'none yet: open an ice grid or glacier outline';
     element('fi-vegetation').textContent = vegetation ? vegetation.name
       : sample ? 'sample vegetation grid' : 'potential vegetation on ice-free ground';
-    const notes = [...(ice?.notes ?? []), ...(vegetation?.notes ?? [])];
+    element('fi-domain').textContent = domain ? domain.name
+      : 'the starting ice and the ground draining into it';
+    const notes = [...(ice?.notes ?? []), ...(vegetation?.notes ?? []), ...(domain?.notes ?? [])];
     element('fi-input-notes').replaceChildren(...notes.map((text) => {
       const item = document.createElement('li');
       item.textContent = text;
@@ -320,6 +324,7 @@ async function boot() {
     surface = sidecarText === undefined ? { bytes, name: fileName } : null;
     ice = null;
     vegetation = null;
+    domain = null;
     drawMap({ keepView: false, legend: true });
     showInfo(info);
     showRunInputs();
@@ -522,6 +527,7 @@ async function boot() {
       type: 'run', scenarioJson, surfaceBytes: surface.bytes, surfaceName: surface.name,
       iceBytes: ice.bytes, iceName: ice.name,
       vegetationBytes: vegetation?.bytes ?? null, vegetationName: vegetation?.name ?? null,
+      domainBytes: domain?.bytes ?? null, domainName: domain?.name ?? null,
     });
   }
 
@@ -542,23 +548,30 @@ async function boot() {
       return;
     }
     if (!workspace.hasTerrain()) {
-      showError(`${file.name}: open the terrain first; the ${kind === 'ice' ? 'ice' : 'vegetation'} is checked against it.`);
+      showError(`${file.name}: open the terrain first; the ${kind === 'domain' ? 'glacier domain' : kind} is checked against it.`);
       return;
     }
     let notes;
     try {
-      notes = kind === 'ice'
-        ? workspace.checkIce(bytes, file.name, form.validJson() ?? undefined)
-        : workspace.checkVegetation(bytes, file.name);
+      notes = {
+        ice: () => workspace.checkIce(bytes, file.name, form.validJson() ?? undefined),
+        vegetation: () => workspace.checkVegetation(bytes, file.name),
+        domain: () => workspace.checkDomain(bytes, file.name),
+      }[kind]();
     } catch (error) {
       showError(error.message ?? String(error));
       return;
     }
     clearError();
     if (kind === 'ice') ice = { bytes, name: file.name, notes };
-    else vegetation = { bytes, name: file.name, notes };
+    else if (kind === 'vegetation') vegetation = { bytes, name: file.name, notes };
+    else domain = { bytes, name: file.name, notes };
     showRunInputs();
-    const what = kind === 'ice' ? (/\.(geo)?json$/i.test(file.name) ? 'Glacier outline' : 'Ice grid') : 'Vegetation';
+    const what = {
+      ice: /\.(geo)?json$/i.test(file.name) ? 'Glacier outline' : 'Ice grid',
+      vegetation: 'Vegetation',
+      domain: 'Glacier domain',
+    }[kind];
     setRunState('ready', `${what}: ${file.name}. It is used from the next run.`);
     document.body.dataset.inputs = String(Number(document.body.dataset.inputs ?? 0) + 1);
   }
@@ -573,6 +586,7 @@ async function boot() {
   };
   pickOne('open-ice', 'ice-input', 'ice');
   pickOne('open-vegetation', 'vegetation-input', 'vegetation');
+  pickOne('open-domain', 'domain-input', 'domain');
 
   element('layer').addEventListener('change', (event) => {
     layer = event.target.value;

@@ -20,6 +20,7 @@ function yieldToMessages() {
 
 async function run({
   scenarioJson, surfaceBytes, surfaceName, iceBytes, iceName, vegetationBytes, vegetationName,
+  domainBytes, domainName,
 }) {
   cancelRequested = false;
   let recorder = null;
@@ -28,7 +29,8 @@ async function run({
     // Without a vegetation grid the engine starts each ice-free cell at its potential
     // vegetation.
     recorder = RunRecorder.withPlants(scenarioJson, surfaceBytes, surfaceName, iceBytes, iceName,
-      vegetationBytes ?? undefined, vegetationName ?? undefined);
+      vegetationBytes ?? undefined, vegetationName ?? undefined,
+      domainBytes ?? undefined, domainName ?? undefined);
     const startYear = recorder.startYear();
     const endYear = recorder.endYear();
     postMessage({ type: 'started', startYear, endYear });

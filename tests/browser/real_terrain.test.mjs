@@ -3,8 +3,8 @@
 // glacier outline from an inventory in longitude/latitude, accepted and placed where the same
 // outline in UTM lands; the run shows its calibrated ELA, relaxation and glacier domain in the
 // run status and under the ELA field, the summary CSV states them, and the domain is a layer
-// whose GeoTIFF holds the outline's cells. A DEM over the model's cell limit opens, coarsened
-// on load, with a note.
+// whose GeoTIFF holds the outline's cells; a domain the planner gives is used by the next run.
+// A DEM over the model's cell limit opens, coarsened on load, with a note.
 
 import { after, before, describe, test } from 'node:test';
 import assert from 'node:assert/strict';
@@ -91,6 +91,21 @@ describe('a planner\'s own glacier on real terrain', () => {
     assert.equal(inside, 3257);
     assert.deepEqual(session.consoleErrors, []);
     assert.deepEqual(session.foreignRequests, []);
+  });
+
+  test('a glacier domain the planner gives is checked when picked and used by the next run', async () => {
+    const { page } = session;
+    const before = await inputCount();
+    await page.setInputFiles('#domain-input', join(FIXTURES, 'ridge_valley_outline_lonlat.geojson'));
+    await page.waitForFunction((n) => Number(document.body.dataset.inputs ?? 0) > n, before);
+    assert.equal(await page.locator('#fi-domain').innerText(), 'ridge_valley_outline_lonlat.geojson');
+    assert.match(await page.locator('#fi-input-notes').innerText(),
+      /ridge_valley_outline_lonlat\.geojson: glacier domain of 26\.3\d\d km² given/);
+    await page.click('#run');
+    await page.waitForFunction(() => ['done', 'failed'].includes(document.body.dataset.run), null,
+      { timeout: 120000 });
+    assert.equal(await page.locator('body').getAttribute('data-run'), 'done');
+    assert.match(await page.locator('#run-notes').innerText(), /glacier domain 26\.3\d\d km² \(given\)/);
   });
 
   test('a DEM over the cell limit opens coarsened on load, and says so', async () => {

@@ -346,6 +346,28 @@ impl Workspace {
         to_js(&notes)
     }
 
+    /// Checks a glacier domain (a GeoTIFF mask, cells above zero inside, or a GeoJSON polygon)
+    /// against the loaded terrain; returns notes (its area, any resampling), or an error naming
+    /// the file.
+    #[wasm_bindgen(js_name = checkDomain)]
+    pub fn check_domain(&self, bytes: &[u8], name: &str) -> Result<JsValue, JsError> {
+        let terrain = self.loaded_terrain()?;
+        let (grid, note) = run_inputs::fit_domain(&terrain.dem.geometry, bytes, name)
+            .map_err(|e| JsError::new(&e.to_string()))?;
+        let inside = grid.values.iter().filter(|&&v| v > 0.0).count();
+        if inside == 0 {
+            return Err(JsError::new(&format!(
+                "{name}: the glacier domain covers no cell of the terrain"
+            )));
+        }
+        let mut notes = vec![format!(
+            "{name}: glacier domain of {:.3} km² given; the balance adds ice only there",
+            inside as f64 * terrain.dem.geometry.cell_area_m2() / 1e6
+        )];
+        notes.extend(note);
+        to_js(&notes)
+    }
+
     /// Checks a GeoTIFF of succession stage codes 0-6 against the loaded terrain; returns
     /// notes on resampling, or an error naming the file.
     #[wasm_bindgen(js_name = checkVegetation)]
@@ -878,6 +900,8 @@ impl RunRecorder {
         ice_name: &str,
         vegetation_bytes: Option<Vec<u8>>,
         vegetation_name: Option<String>,
+        domain_bytes: Option<Vec<u8>>,
+        domain_name: Option<String>,
     ) -> Result<RunRecorder, JsError> {
         let vegetation_name = vegetation_name.unwrap_or_else(|| "vegetation grid".to_string());
         let RunInputs { scenario, grids } = read_run_inputs(
@@ -890,10 +914,19 @@ impl RunRecorder {
                 .as_deref()
                 .map(|bytes| (bytes, vegetation_name.as_str())),
         )?;
+        let domain = match domain_bytes {
+            Some(bytes) => {
+                let name = domain_name.unwrap_or_else(|| "glacier domain".to_string());
+                let (grid, _) = run_inputs::fit_domain(&grids.surface_m.geometry, &bytes, &name)
+                    .map_err(|e| JsError::new(&e.to_string()))?;
+                Some(grid)
+            }
+            None => None,
+        };
         let run = RecordedRun::with_plants(
             &grids.bed_m,
             &grids.ice_thickness_m,
-            None,
+            domain.as_ref(),
             &scenario,
             grids.vegetation.as_ref(),
             |name| {
