@@ -12,6 +12,7 @@ mod ice_mass_balance;
 mod ice_outline;
 mod ice_real_terrain;
 mod ice_response;
+mod ice_steep_snow;
 mod lakes_priority_flood;
 mod outline_mask;
 mod terrain_horn;

@@ -1,7 +1,7 @@
 //! Glacier domain: the cells where the surface balance may add ice. By default the starting
-//! ice plus the ground whose D8 flow path on the surface (steepest descent to one of the eight
-//! neighbours; O'Callaghan & Mark 1984, Comput. Vision Graph. Image Process. 28:323-344)
-//! reaches it, so snow that falls on the glacier's own basin feeds it and high ground that
+//! ice, the ring of cells touching it, and the ground whose D8 flow path on the surface
+//! (steepest descent to one of the eight neighbours; O'Callaghan & Mark 1984, Comput. Vision
+//! Graph. Image Process. 28:323-344) reaches either, so snow that falls on the glacier's own basin feeds it and high ground that
 //! drains elsewhere never grows ice of its own. A planner may give the domain instead, as a
 //! GeoTIFF mask or a GeoJSON outline (see `run_inputs`).
 //!
@@ -9,9 +9,11 @@
 
 use crate::grid::Grid;
 
-/// Cells of the default domain: every valid cell with starting ice (thickness above zero)
-/// and every valid cell whose D8 path on `surface_m` runs into one. A path that ends in a pit
-/// or at the grid edge before reaching ice stays outside.
+/// Cells of the default domain: every valid cell with starting ice (thickness above zero),
+/// the ring of cells touching it (ground against the margin, where slope water and snow from
+/// above collect in the hollow between the ice surface and the ground), and every valid cell
+/// whose D8 path on `surface_m` runs into one of those. A path that ends in a pit or at the
+/// grid edge away from the ice stays outside.
 ///
 /// # Panics
 /// If `ice_thickness_m` does not have one value per cell (a programming error).
@@ -27,6 +29,21 @@ pub fn drainage_domain(surface_m: &Grid, ice_thickness_m: &[f32]) -> Vec<bool> {
         if valid(idx) && h > 0.0 {
             domain[idx] = true;
             queue.push(idx);
+        }
+    }
+    let ice_cells = queue.clone();
+    for idx in ice_cells {
+        let (row, col) = (idx / n_cols, idx % n_cols);
+        for (dr, dc) in NEIGHBOURS {
+            let (r, c) = (row as isize + dr, col as isize + dc);
+            if r < 0 || c < 0 || r >= n_rows as isize || c >= n_cols as isize {
+                continue;
+            }
+            let n = r as usize * n_cols + c as usize;
+            if valid(n) && !domain[n] {
+                domain[n] = true;
+                queue.push(n);
+            }
         }
     }
     // Walk upstream: a neighbour belongs when its receiver is a domain cell.
@@ -151,11 +168,12 @@ mod tests {
 
     #[test]
     fn ground_draining_into_the_ice_joins_and_a_separate_summit_does_not() {
-        // Columns 0-5 fall east to ice in column 5; column 6 is a hollow below the ice and
-        // columns 7-9 a separate summit that drains into it, away from the ice.
+        // Columns 0-5 fall east to ice in column 5; column 6 is ground against the ice (the
+        // margin ring); column 7 a hollow beyond it, into which a separate summit (columns
+        // 8-9) drains, away from the ice.
         let n_cols = 10;
         let profile = [
-            3050.0, 3040.0, 3030.0, 3020.0, 3010.0, 3000.0, 2990.0, 3100.0, 3200.0, 3150.0,
+            3050.0, 3040.0, 3030.0, 3020.0, 3010.0, 3000.0, 2990.0, 2980.0, 3100.0, 3200.0,
         ];
         let mut z = Vec::new();
         for row in 0..3 {
@@ -171,7 +189,7 @@ mod tests {
         let domain = drainage_domain(&surface, &ice);
         for row in 0..3 {
             for col in 0..n_cols {
-                let expected = col <= 5;
+                let expected = col <= 6;
                 assert_eq!(domain[row * n_cols + col], expected, "row {row} col {col}");
             }
         }
