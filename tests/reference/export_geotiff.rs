@@ -67,12 +67,18 @@ fn layers_are_georeferenced_like_the_dem_and_hold_the_timeline_values() {
         LayerKind::Stage,
         LayerKind::Cover(0),
         LayerKind::Soil,
+        LayerKind::Domain,
     ] {
         let out = decode(&layer_geotiff(timeline, dem, &run.meta, kind, year).unwrap());
         // TIFF 6.0 ImageDescription (270) carries what the file is and the caution.
         let description = out.description.clone().unwrap_or_default();
         assert!(
             description.contains(&format!("end of {year}")),
+            "{description}"
+        );
+        // The run's ELA and how it was set (TIFF ASCII, so non-ASCII becomes spaces).
+        assert!(
+            description.contains("ELA ") && description.contains("in the start year ("),
             "{description}"
         );
         assert!(
@@ -97,6 +103,15 @@ fn layers_are_georeferenced_like_the_dem_and_hold_the_timeline_values() {
                         assert_eq!(v, stage[idx]);
                     }
                 }
+            }
+            (DecodingResult::U8(values), LayerKind::Domain) => {
+                let domain = &timeline.run_start().expect("recorded start").domain;
+                for (idx, &v) in values.iter().enumerate() {
+                    if !dem.nodata[idx] {
+                        assert_eq!(v, u8::from(domain[idx]), "domain {idx}");
+                    }
+                }
+                assert!(values.contains(&1) && values.contains(&0));
             }
             (DecodingResult::F32(values), _) => {
                 for (idx, &v) in values.iter().enumerate().step_by(37) {

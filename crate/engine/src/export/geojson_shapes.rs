@@ -170,11 +170,16 @@ fn collection(g: &GridGeometry, meta: &ExportMeta, what: &str, features: &[Strin
     let mut out = String::from("{\"type\":\"FeatureCollection\",\"forefield\":{");
     let _ = write!(
         out,
-        "\"content\":{},\"scenario\":{},\"seed\":{},\"engine_version\":{},\"source_crs\":{},\"coordinates\":{},\"caution\":{}}},\"features\":[",
+        "\"content\":{},\"scenario\":{},\"seed\":{},\"engine_version\":{},\"ice_start\":[{}],\"source_crs\":{},\"coordinates\":{},\"caution\":{}}},\"features\":[",
         json_string(what),
         json_string(&meta.scenario_name),
         meta.seed,
         json_string(meta.engine_version),
+        meta.run_notes
+            .iter()
+            .map(|n| json_string(n))
+            .collect::<Vec<_>>()
+            .join(","),
         json_string(&source_crs),
         json_string(&coordinates),
         json_string(CAUTION)
