@@ -299,7 +299,7 @@ async function boot() {
     element('fi-vegetation').textContent = vegetation ? vegetation.name
       : sample ? 'sample vegetation grid' : 'potential vegetation on ice-free ground';
     element('fi-domain').textContent = domain ? domain.name
-      : 'the starting ice and the ground draining into it';
+      : 'the starting ice, the ground touching it and the ground draining into them';
     const notes = [...(ice?.notes ?? []), ...(vegetation?.notes ?? []), ...(domain?.notes ?? [])];
     element('fi-input-notes').replaceChildren(...notes.map((text) => {
       const item = document.createElement('li');

@@ -53,10 +53,14 @@ describe('ice and vegetation inputs', () => {
     const noteArea = Number(note.match(/area ([\d.]+) km²/)[1]);
     assert.ok(noteArea > 0.5, `outline area ${noteArea} km²`);
 
-    // Typed as a person would, so the form sees each key.
+    // Typed as a person would, so the form sees each key; no start-up relaxation, so the run
+    // starts from the estimate itself.
     await page.locator('#field-n_years').click();
     await page.keyboard.press('Control+A');
     await page.keyboard.type('3');
+    await page.locator('#field-relaxation_years').click();
+    await page.keyboard.press('Control+A');
+    await page.keyboard.type('0');
     await page.click('#run');
     await waitForRun();
     assert.equal(await page.locator('body').getAttribute('data-run'), 'done',

@@ -83,7 +83,8 @@ pub struct GridFiles {
     /// Glacier mask, GeoTIFF: cells with a value above zero lie inside the glacier.
     pub glacier_mask: Option<String>,
     /// Glacier domain, where the balance may add ice: a GeoTIFF (cells above zero) or a
-    /// GeoJSON polygon. Default: the starting ice and the ground draining into it.
+    /// GeoJSON polygon. Default: the starting ice, the ground touching it and the ground
+    /// draining into them.
     pub glacier_domain: Option<String>,
 }
 

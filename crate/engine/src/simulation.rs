@@ -734,7 +734,9 @@ impl IceSimulation {
                 n_domain as f64 * self.geometry.cell_area_m2() / 1e6,
                 match (self.domain_given, self.mass_balance.domain) {
                     (true, _) => "given",
-                    (false, DomainRule::Drainage) => "starting ice and the ground draining into it",
+                    (false, DomainRule::Drainage) => {
+                        "starting ice, the ground touching it and the ground draining into them"
+                    }
                     (false, DomainRule::WholeGrid) => "the whole grid",
                 }
             ),

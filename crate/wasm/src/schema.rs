@@ -171,7 +171,7 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         "Glacier domain",
         FieldKind::Choice,
         false,
-        "Where snow may build ice: the glacier and the ground draining into it, or the whole grid.",
+        "Where snow may build ice: the glacier, the ground touching it and the ground draining into them, or the whole grid.",
     ),
     (
         "mass_balance.snow_redistribution",
@@ -562,7 +562,7 @@ fn field_options(path: &str) -> Vec<ChoiceOption> {
         "mass_balance.domain" => [
             (
                 DomainRule::Drainage,
-                "glacier and the ground draining into it",
+                "glacier and the ground touching or draining into it",
             ),
             (DomainRule::WholeGrid, "whole grid"),
         ]
