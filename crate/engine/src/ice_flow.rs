@@ -4,8 +4,9 @@
 //!
 //! dH/dt = M - div(q), q = -D grad(s), s = b + H,
 //! D = (Gamma H^5 + S H^3) |grad s|^2, Gamma = 2 A (rho g)^3 / 5 (Cuffey & Paterson 2010,
-//! ch. 8), S = f_s (rho g)^3 for Weertman-type sliding u_b = f_s tau_b^3 / (rho g H)
-//! (the form used by Budd, Keage & Blundy 1979; from memory).
+//! ch. 8), S = f_s (rho g)^3 for Weertman-type sliding u_b = f_s tau_b^3 / H with
+//! tau_b = rho g H |grad s| (the form used by Budd, Keage & Blundy 1979; from memory): with
+//! f_s in Pa^-3 m^2 s^-1, u_b is in m/s, and u_b H = S H^3 |grad s|^3 is the sliding flux.
 //!
 //! Scheme (the reference run of the project's science checks uses the same layout):
 //! thickness on cell centres; D at cell corners from the mean thickness and the surface
