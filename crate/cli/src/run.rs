@@ -164,6 +164,9 @@ pub fn run(args: &[String]) -> Result<()> {
             outln!("{line}");
         }
     }
+    for note in run.ice().end_notes() {
+        outln!("{note}");
+    }
     let timeline = run.finish()?;
     let meta = ExportMeta::for_run(&scenario, &timeline);
     write_file(

@@ -195,7 +195,8 @@ impl RecordedRun {
 
     /// Ends recording: the timeline up to the last simulated year. A second call fails.
     pub fn finish(&mut self) -> Result<Timeline, RecordedRunError> {
-        let recorder = self.recorder.take().ok_or(RecordedRunError::Finished)?;
+        let mut recorder = self.recorder.take().ok_or(RecordedRunError::Finished)?;
+        recorder.add_notes(self.simulation.ice().end_notes());
         Ok(match &self.simulation {
             RecordedSimulation::Ice(ice) => recorder.finish(ice.ice_thickness_m()),
             RecordedSimulation::Coupled(coupled) => recorder.finish_with_plants(

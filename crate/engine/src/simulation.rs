@@ -180,6 +180,10 @@ pub struct IceSimulation {
     block_weights: Vec<f64>,
     /// Valid fine cells of each ice-grid block.
     block_valid: Vec<usize>,
+    /// First year (the start year for the relaxed start) the ice touched the grid edge.
+    edge_year: Option<i32>,
+    /// The growing-season temperature at the ELA against the treeline, for the start notes.
+    treeline_note: String,
 }
 
 impl IceSimulation {
@@ -382,6 +386,8 @@ impl IceSimulation {
             summary: Vec::with_capacity(scenario.n_years as usize + 1),
             block_weights: vec![0.0; block * block],
             block_valid: n_valid,
+            edge_year: None,
+            treeline_note: String::new(),
         };
         simulation.calibration = simulation.calibrate(
             &surface_m,
@@ -397,6 +403,10 @@ impl IceSimulation {
                 Some(simulation.glacier_mean_balance_mwe(&start, &glacier_cells, ela));
         }
         simulation.relax(scenario.relaxation_years, start_anomaly);
+        if simulation.touches_edge(simulation.ice_box) {
+            simulation.edge_year = Some(simulation.start_year);
+        }
+        simulation.treeline_note = treeline_note(scenario, simulation.calibration.start_ela_m);
         // The fine layer is the downscaled ice grid from the start, so the first year's
         // changes are the model's, not the transfer's.
         if let Some(ice_box) = simulation.ice_box {
@@ -590,6 +600,9 @@ impl IceSimulation {
             );
         }
         self.ice_box = new_box;
+        if self.edge_year.is_none() && self.touches_edge(new_box) {
+            self.edge_year = Some(year);
+        }
         self.year = year;
         let row = self.summarise(
             year,
@@ -723,6 +736,30 @@ impl IceSimulation {
         &self.relaxation
     }
 
+    /// Whether ice lies in an ice-grid cell on the grid's edge.
+    fn touches_edge(&self, ice_box: Option<CellBox>) -> bool {
+        ice_box.is_some_and(|b| {
+            b.row_min == 0
+                || b.col_min == 0
+                || b.row_max + 1 == self.ice_rows
+                || b.col_max + 1 == self.ice_cols
+        })
+    }
+
+    /// Warnings the run so far calls for: ice at the grid edge, which is closed to flow.
+    pub fn end_notes(&self) -> Vec<String> {
+        self.edge_year
+            .map(|year| {
+                format!(
+                    "warning: ice reached the edge of the grid in {year}; the edge is closed to \
+                     ice flow, so ice piles against it there; extend the terrain beyond the \
+                     glacier"
+                )
+            })
+            .into_iter()
+            .collect()
+    }
+
     /// One line per start-up step: the ELA and how it was set, the relaxation, the domain.
     pub fn start_notes(&self) -> Vec<String> {
         let n_domain = self.domain.iter().filter(|&&d| d).count();
@@ -740,6 +777,7 @@ impl IceSimulation {
                     (false, DomainRule::WholeGrid) => "the whole grid",
                 }
             ),
+            self.treeline_note.clone(),
         ]
     }
 
@@ -804,6 +842,44 @@ impl IceSimulation {
         &self.ice_grid_thickness_m
     }
 }
+
+/// The growing-season air temperature at the start year's ELA and where the scenario's
+/// treeline lies (the lowest growing-season minimum of its tree types; the default 6.7 C of
+/// Körner & Paulsen 2004, J. Biogeogr. 31:713-732, is a seasonal mean root-zone temperature,
+/// applied here to air temperature). A treeline above the ELA (trees on ground where snow
+/// builds glaciers) means the growing season and the mass balance disagree.
+fn treeline_note(scenario: &Scenario, start_ela_m: f64) -> String {
+    let season = &scenario.vegetation.growing_season;
+    let lapse_k_per_m = season.lapse_rate_k_per_km / 1000.0;
+    let at_ela_c = season.sea_level_temp_c - lapse_k_per_m * start_ela_m;
+    let tree_limit_c = scenario
+        .vegetation
+        .types
+        .iter()
+        .filter(|t| t.growth_form == crate::pft::GrowthForm::Tree)
+        .map(|t| t.min_growing_season_temp_c)
+        .fold(f64::INFINITY, f64::min);
+    let tree_limit_c = if tree_limit_c.is_finite() {
+        tree_limit_c
+    } else {
+        TREELINE_TEMP_C
+    };
+    let treeline_m = (season.sea_level_temp_c - tree_limit_c) / lapse_k_per_m;
+    let verdict = if treeline_m > start_ela_m {
+        "warning: the treeline lies above the ELA; check the growing season against the mass \
+         balance"
+    } else {
+        "the treeline lies below the ELA"
+    };
+    format!(
+        "growing-season mean {at_ela_c:.1} C at the ELA; the {tree_limit_c} C treeline \
+         (a root-zone temperature, here applied to air) at {treeline_m:.0} m: {verdict}"
+    )
+}
+
+/// Seasonal mean root-zone temperature at climatic treelines, C (Körner & Paulsen 2004), for a
+/// scenario without tree types.
+const TREELINE_TEMP_C: f64 = 6.7;
 
 fn union(a: CellBox, b: CellBox) -> CellBox {
     CellBox {
@@ -894,6 +970,32 @@ mod tests {
         let input_volume: f64 = thickness.values.iter().map(|&h| f64::from(h)).sum::<f64>() * 625.0;
         assert!((fine_volume / input_volume - 1.0).abs() < 1e-6);
         assert!((simulation.ice_volume_m3() / input_volume - 1.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn ice_at_the_grid_edge_is_warned_about_and_inland_ice_is_not() {
+        let g = geometry(12, 100.0);
+        let bed = Grid::filled(g, 2000.0);
+        let scenario = Scenario {
+            n_years: 2,
+            ..Scenario::default()
+        };
+        let everywhere = Grid::filled(g, 50.0);
+        let run = IceSimulation::new(&bed, &everywhere, &scenario).expect("valid");
+        assert!(
+            run.end_notes()[0].contains("edge of the grid in 2025"),
+            "{:?}",
+            run.end_notes()
+        );
+        let mut inland = Grid::filled(g, 0.0);
+        for row in 5..7 {
+            for col in 5..7 {
+                inland.values[row * 12 + col] = 20.0;
+            }
+        }
+        let mut run = IceSimulation::new(&bed, &inland, &scenario).expect("valid");
+        while run.step_year().is_some() {}
+        assert!(run.end_notes().is_empty(), "{:?}", run.end_notes());
     }
 
     #[test]

@@ -364,6 +364,13 @@ impl TimelineRecorder {
         self
     }
 
+    /// Adds lines to the run's notes (warnings found during the run).
+    pub fn add_notes(&mut self, notes: Vec<String>) {
+        if let Some(start) = self.timeline.start.as_mut() {
+            start.notes.extend(notes);
+        }
+    }
+
     /// Records the plants at the end of `year`, the year of the last [`Self::record_year`].
     pub fn record_plants(&mut self, year: i32, stage: &[u8], covers: &[&[f32]], soil: &[f32]) {
         let start = self.timeline.start_year;
