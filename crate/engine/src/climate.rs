@@ -1,5 +1,5 @@
 //! Climate forcing: a yearly temperature anomaly from a linear warming trend, a piecewise-linear
-//! table, volcanic cooling pulses (exponential recovery) and an 11-year solar-cycle term.
+//! table, volcanic cooling pulses (exponential recovery) and a sinusoidal solar-variability term.
 //!
 //! The anomaly is the sum of the four parts, each zero unless configured:
 //!
@@ -11,17 +11,24 @@
 //! solar(y)   = amplitude * cos(2 pi (y - solar_max_year) / 11)
 //! ```
 //!
-//! The pulse shape follows the "dramatic but temporary" cooling of about 0.5 K recovering over
-//! 2-3 years reported after a large tropical eruption (Hansen et al. 1992, GRL 19(2):215-218);
-//! the exponential recovery is common practice, no source. The 11-year period is the mean
-//! length of the sunspot cycle (common practice, no source). Everything is a pure function of
-//! the year: no clock, no random numbers.
+//! A volcanic pulse has two parameters, a peak cooling and an e-folding recovery time. About
+//! 0.5 K of peak cooling after a large tropical eruption is from Hansen et al. (1992), GRL
+//! 19(2):215-218 (from memory); the exponential recovery is common practice, no source, and the
+//! e-folding time is the scenario's choice.
+//!
+//! The solar term is a plain sinusoid standing for solar variability. Its period of about 11
+//! years is that of the solar activity cycle (Hathaway 2015, "The Solar Cycle", Living Rev.
+//! Sol. Phys. 12:4); its amplitude is the scenario's choice, with no published value behind
+//! it, and it is off by default.
+//!
+//! Everything is a pure function of the year: no clock, no random numbers.
 
 use serde::{Deserialize, Serialize};
 
 use crate::scenario::{check_range, ScenarioError};
 
-/// Mean solar-cycle length, years (common practice, no source).
+/// Period of the solar-variability term, years: the solar activity cycle of about 11 years
+/// (Hathaway 2015, Living Rev. Sol. Phys. 12:4).
 pub const SOLAR_CYCLE_YEARS: f64 = 11.0;
 
 /// One point of a user anomaly table.
@@ -41,10 +48,10 @@ pub struct VolcanicPulse {
     /// Year the cooling starts (full strength in that year).
     pub year: f64,
     /// Peak cooling, K (positive number = colder), 0 to 5. About 0.5 K for a large tropical
-    /// eruption (Hansen et al. 1992).
+    /// eruption (Hansen et al. 1992, GRL 19(2):215-218; from memory).
     pub peak_cooling_k: f64,
-    /// E-folding recovery time, years, 0.1 to 50. About 1-2 years for the 2-3 year recovery
-    /// reported after a large tropical eruption.
+    /// E-folding recovery time, years, 0.1 to 50; the scenario's choice (the exponential
+    /// recovery is common practice, no source).
     pub decay_years: f64,
 }
 
@@ -62,10 +69,10 @@ pub struct ClimateParams {
     pub anomaly_table: Vec<AnomalyPoint>,
     /// Volcanic cooling pulses; empty by default.
     pub volcanic_pulses: Vec<VolcanicPulse>,
-    /// Half the peak-to-trough amplitude of the solar-cycle term, K, 0 to 0.5. Default 0 (off);
-    /// about 0.05 K is a typical size (from memory).
+    /// Half the peak-to-trough swing of the sinusoidal solar-variability term, K, 0 to 0.5.
+    /// The size is the scenario's choice; default 0 (off).
     pub solar_cycle_amplitude_k: f64,
-    /// A year of solar maximum, used for the phase of the cycle. Default 2014.
+    /// A year when the solar term peaks, used for its phase. Default 2014.
     pub solar_max_year: f64,
 }
 

@@ -15,8 +15,8 @@ use crate::scenario::Scenario;
 use crate::simulation::{bed_from_surface, SimulationError};
 use crate::vegetation::N_STAGES;
 
-/// Thickest ice accepted in a thickness grid, m: the thickest glaciers measured are a little
-/// over 4 km (Antarctic ice sheet; from memory), a mountain glacier a few hundred metres.
+/// Thickest ice accepted in a thickness grid, m: the thickest ice measured is a little over
+/// 4 km (from memory), a mountain glacier a few hundred metres.
 pub const MAX_ICE_THICKNESS_M: f64 = 5000.0;
 
 /// Where the ice at the start comes from.
