@@ -981,6 +981,10 @@ impl RunRecorder {
             .run
             .finish()
             .map_err(|e| JsError::new(&e.to_string()))?;
+        // The finished timeline's notes include what the run warned about on the way.
+        if let Some(start) = timeline.run_start() {
+            self.meta.run_notes.clone_from(&start.notes);
+        }
         self.summary_csv = Some(summary_csv(
             self.run.rows(),
             timeline.type_names(),

@@ -123,7 +123,7 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         "Solar-cycle amplitude",
         FieldKind::Number,
         false,
-        "Half the swing of a solar-variability sinusoid (period about 11 years); your choice, 0 turns it off.",
+        "Half the swing of a solar-variability sinusoid (period about 11 years); the size is your choice, 0 turns it off.",
     ),
     (
         "climate.solar_max_year",
