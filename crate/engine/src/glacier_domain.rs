@@ -35,11 +35,9 @@ pub fn drainage_domain(surface_m: &Grid, ice_thickness_m: &[f32]) -> Vec<bool> {
     for idx in ice_cells {
         let (row, col) = (idx / n_cols, idx % n_cols);
         for (dr, dc) in NEIGHBOURS {
-            let (r, c) = (row as isize + dr, col as isize + dc);
-            if r < 0 || c < 0 || r >= n_rows as isize || c >= n_cols as isize {
+            let Some(n) = neighbour(n_cols, n_rows, row, col, dr, dc) else {
                 continue;
-            }
-            let n = r as usize * n_cols + c as usize;
+            };
             if valid(n) && !domain[n] {
                 domain[n] = true;
                 queue.push(n);
@@ -50,11 +48,9 @@ pub fn drainage_domain(surface_m: &Grid, ice_thickness_m: &[f32]) -> Vec<bool> {
     while let Some(idx) = queue.pop() {
         let (row, col) = (idx / n_cols, idx % n_cols);
         for (dr, dc) in NEIGHBOURS {
-            let (r, c) = (row as isize + dr, col as isize + dc);
-            if r < 0 || c < 0 || r >= n_rows as isize || c >= n_cols as isize {
+            let Some(n) = neighbour(n_cols, n_rows, row, col, dr, dc) else {
                 continue;
-            }
-            let n = r as usize * n_cols + c as usize;
+            };
             if !domain[n] && receiver[n] == idx as u32 {
                 domain[n] = true;
                 queue.push(n);
@@ -65,7 +61,7 @@ pub fn drainage_domain(surface_m: &Grid, ice_thickness_m: &[f32]) -> Vec<bool> {
 }
 
 /// The eight neighbours as (row, column) offsets.
-const NEIGHBOURS: [(isize, isize); 8] = [
+pub(crate) const NEIGHBOURS: [(isize, isize); 8] = [
     (-1, -1),
     (-1, 0),
     (-1, 1),
@@ -75,6 +71,20 @@ const NEIGHBOURS: [(isize, isize); 8] = [
     (1, 0),
     (1, 1),
 ];
+
+/// Index of the cell at offset (`dr`, `dc`) from (`row`, `col`), if it is on the grid.
+pub(crate) fn neighbour(
+    n_cols: usize,
+    n_rows: usize,
+    row: usize,
+    col: usize,
+    dr: isize,
+    dc: isize,
+) -> Option<usize> {
+    let (r, c) = (row as isize + dr, col as isize + dc);
+    (r >= 0 && c >= 0 && r < n_rows as isize && c < n_cols as isize)
+        .then(|| r as usize * n_cols + c as usize)
+}
 
 /// Marks a cell without a lower neighbour (a pit, a flat or nodata).
 const NO_RECEIVER: u32 = u32::MAX;
@@ -94,11 +104,9 @@ fn d8_receivers(surface_m: &Grid) -> Vec<u32> {
             let z = surface_m.values[idx];
             let mut best = 0.0_f32;
             for (dr, dc) in NEIGHBOURS {
-                let (r, c) = (row as isize + dr, col as isize + dc);
-                if r < 0 || c < 0 || r >= n_rows as isize || c >= n_cols as isize {
+                let Some(n) = neighbour(n_cols, n_rows, row, col, dr, dc) else {
                     continue;
-                }
-                let n = r as usize * n_cols + c as usize;
+                };
                 if surface_m.nodata[n] {
                     continue;
                 }

@@ -11,6 +11,8 @@
 //! It runs on the ice grid once a year, on the surface at the start of the year, and only
 //! inside the glacier domain: snow never slides onto ground outside it.
 
+use crate::glacier_domain::{neighbour, NEIGHBOURS};
+
 /// The redistribution's parameters and scratch memory for one ice grid.
 #[derive(Clone, Debug)]
 pub struct SnowRedistribution {
@@ -135,30 +137,6 @@ impl SnowRedistribution {
             }
         }
     }
-}
-
-const NEIGHBOURS: [(isize, isize); 8] = [
-    (-1, -1),
-    (-1, 0),
-    (-1, 1),
-    (0, -1),
-    (0, 1),
-    (1, -1),
-    (1, 0),
-    (1, 1),
-];
-
-fn neighbour(
-    n_cols: usize,
-    n_rows: usize,
-    row: usize,
-    col: usize,
-    dr: isize,
-    dc: isize,
-) -> Option<usize> {
-    let (r, c) = (row as isize + dr, col as isize + dc);
-    (r >= 0 && c >= 0 && r < n_rows as isize && c < n_cols as isize)
-        .then(|| r as usize * n_cols + c as usize)
 }
 
 /// Tangent of the slope by Horn's (1981, Proc. IEEE 69(1):14-47) weighted differences, the
