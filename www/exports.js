@@ -67,6 +67,10 @@ export class ExportPanel {
     this.el.ice.disabled = this.busy || !state;
     this.el.stages.disabled = this.busy || !state?.hasPlants;
     this.el.iceYears.disabled = this.busy || !state;
+    // Positions are converted to WGS 84 only from a UTM terrain; the engine says which.
+    const where = state?.geojsonCoordinates;
+    this.el.stages.title = where ? `Polygons of each succession stage; ${where}` : 'Polygons of each succession stage';
+    this.el.ice.title = where ? `Ice outline of each year asked; ${where}` : 'Ice outline of each year asked';
     this.el.hint.textContent = !state ? 'After a run: exports of the layer and year on the map.'
       : layerOnMap ? `Map exports: ${state.layerLabel} in ${state.year}.`
         : `Choose a run layer for the map exports; tables use ${state.year}.`;
@@ -136,7 +140,8 @@ export class ExportPanel {
     const years = parseYears(this.el.iceYears.value, state.first, state.last);
     const chosen = years.length ? years : [state.year];
     const text = this.workspace.exportIceOutlines(Int32Array.from(chosen));
-    const name = chosen.length === 1 ? `ice_outline_${chosen[0]}.geojson` : 'ice_outlines.geojson';
+    // The command line's name, whatever the years: each feature says its year.
+    const name = 'ice_outlines.geojson';
     download([text], name, 'application/geo+json');
     this.done(name, text.length);
   }

@@ -113,7 +113,8 @@ function showReadout(cell, history = null, year = null) {
     // Flat cells have no aspect; the engine may say so with null.
     set('aspect', cell.aspect_deg == null ? 'flat' : `${formatNumber(cell.aspect_deg, 0)}°`);
   }
-  element('readout-hint').textContent = 'At the cell centre; slope and aspect by Horn (1981).';
+  element('readout-hint').textContent =
+    'At the cell centre. Surface: the top of the ice, or the ground where there is no ice, as in the terrain file. Slope and aspect by Horn (1981).';
 }
 
 async function boot() {
@@ -188,7 +189,7 @@ async function boot() {
         (value) => formatNumber(value));
     }
     const typeName = layer.startsWith('cover:') ? timelineInfo.type_names[Number(layer.slice(6))] : '';
-    const label = { terrain: 'Terrain map: shaded relief with elevation colours',
+    const label = { terrain: 'Surface elevation over shaded relief',
       ice_thickness: `Ice thickness in ${currentYear()} over shaded relief`,
       exposure_year: `Year each cell became ice-free, as of ${currentYear()}`,
       stage: `Succession stage in ${currentYear()}`,
@@ -291,6 +292,19 @@ async function boot() {
     zonePanel?.refresh();
   }
 
+  /** The run status between runs: what the next run starts from, or why it cannot run. */
+  function runInputsText() {
+    if (!info) return 'Open a terrain to run.';
+    if (!surface) {
+      return `${info.file_name} is a PNG height map: it can be viewed, but runs need the terrain as a GeoTIFF.`;
+    }
+    if (surface.name === SAMPLE_NAME) {
+      return 'Runs use the sample valley with its own ice and vegetation grids.';
+    }
+    if (!ice) return `Runs use ${surface.name}; open its ice (Ice…: a thickness grid or a glacier outline) first.`;
+    return `Runs use ${surface.name} with ${ice.name}.`;
+  }
+
   /** Says which ice and vegetation the next run starts from, with the engine's notes. */
   function showRunInputs() {
     const sample = surface?.name === SAMPLE_NAME;
@@ -328,21 +342,42 @@ async function boot() {
     drawMap({ keepView: false, legend: true });
     showInfo(info);
     showRunInputs();
+    if (!running) runStatus.textContent = runInputsText();
     showReadout(null);
     mapMessage.textContent = '';
     document.body.dataset.loads = String(Number(document.body.dataset.loads ?? 0) + 1);
     return true;
   }
 
+  /** Asks what a dropped GeoJSON is: the same polygons may be ice, a domain or a zone. */
+  function askGeoJsonUse(file) {
+    const box = element('drop-choice');
+    element('drop-choice-file').textContent = file.name;
+    box.hidden = false;
+    const buttons = [...box.querySelectorAll('button')];
+    buttons[0].focus();
+    return new Promise((resolve) => {
+      const finish = (use) => {
+        box.hidden = true;
+        buttons.forEach((button) => { button.onclick = null; });
+        box.onkeydown = null;
+        resolve(use);
+      };
+      buttons.forEach((button) => { button.onclick = () => finish(button.dataset.use); });
+      box.onkeydown = (event) => { if (event.key === 'Escape') finish(''); };
+    });
+  }
+
   async function loadFiles(files) {
-    if (zonePanel.claimsDrop(files)) return;
-    const outlines = files.filter((file) => /\.geojson$/i.test(file.name));
-    if (outlines.length > 0) {
-      if (outlines.length > 1 || files.length > 1) {
-        showError(`${files.map((file) => file.name).join(', ')}: drop one glacier outline, or the terrain files, at a time.`);
+    const polygons = files.filter((file) => /\.geojson$/i.test(file.name));
+    if (polygons.length > 0) {
+      if (polygons.length > 1 || files.length > 1) {
+        showError(`${files.map((file) => file.name).join(', ')}: drop one GeoJSON, or the terrain files, at a time.`);
         return;
       }
-      await loadRunInput('ice', outlines[0]);
+      const use = await askGeoJsonUse(polygons[0]);
+      if (use === 'zone') zonePanel.open(polygons[0]);
+      else if (use) await loadRunInput(use, polygons[0]);
       return;
     }
     document.body.dataset.state = 'loading';
@@ -448,7 +483,7 @@ async function boot() {
       summaryCsv = message.summaryCsv;
       progress.value = progress.max;
       const mib = timelineInfo.memory_bytes / 2 ** 20;
-      setRunState('done', `Done: ${timelineInfo.start_year} to ${timelineInfo.last_year}. Timeline ${formatNumber(mib, 1)} MiB.`);
+      setRunState('done', `Done: ${timelineInfo.start_year} to ${timelineInfo.last_year}. Every year is kept in memory (${formatNumber(mib, 1)} MiB), so any year shows at once.`);
       showRunNotes(timelineInfo.run_notes);
       const names = timelineInfo.type_names;
       element('cover-layers').replaceChildren(...names.map((name, index) => {
@@ -621,12 +656,13 @@ async function boot() {
       first: timelineInfo.start_year,
       last: timelineInfo.last_year,
       hasPlants: timelineInfo.type_names.length > 0,
+      geojsonCoordinates: info?.geojson_coordinates ?? null,
     } : null),
     summaryCsv: () => summaryCsv,
   });
 
   zonePanel = new ZonePanel({
-    workspace, map, year: currentYear, showError, clearError, dropTarget: element('map-frame'),
+    workspace, map, year: currentYear, showError, clearError,
     terrain: () => info,
     elements: {
       open: element('zone-open'), input: element('zone-input'), csv: element('zone-csv'),
@@ -666,7 +702,7 @@ async function boot() {
           thickness.push(new Float32Array(wasm.memory.buffer, run.iceThicknessPtr(), run.nCells())[idx]);
         }
         const exposed = new Int32Array(wasm.memory.buffer, run.yearExposedPtr(), run.nCells())[idx];
-        return { years, ice_thickness_m: thickness, year_exposed: exposed };
+        return { years, ice_thickness_m: thickness, exposure_year: exposed };
       } finally {
         run.free();
       }

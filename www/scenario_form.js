@@ -41,6 +41,11 @@ function showNumber(value) {
 }
 
 const withUnit = (text, unit) => (unit ? `${text} ${unit}` : text);
+/** A label with its unit, unless the label already says it ("Start year", not "Start year (year)"). */
+const labelWithUnit = (field) => {
+  const said = /^years?$/.test(field.unit) && /\byears?\b/i.test(field.label);
+  return field.unit && !said ? `${field.label} (${field.unit})` : field.label;
+};
 const rangeText = (field) => `${showNumber(field.min)} to ${withUnit(showNumber(field.max), field.unit)}`;
 const shortRange = (field) => (field.min == null ? '' : `${showNumber(field.min)}–${showNumber(field.max)}`);
 
@@ -140,13 +145,14 @@ export class ScenarioForm {
     for (const field of this.fields) {
       const id = `field-${field.path.replace(/\./g, '-')}`;
       const wrapper = element('div', 'field');
-      const label = element('label', null, field.unit ? `${field.label} (${field.unit})` : field.label);
+      const label = element('label', null, labelWithUnit(field));
       label.htmlFor = id;
       const input = makeInput(field, id);
       input.name = field.path;
       const hint = element('p', 'field-hint');
       hint.id = `${id}-hint`;
-      const range = field.min == null ? '' : ` Range ${showNumber(field.min)} to ${showNumber(field.max)}.`;
+      // The seed's range reads as words within its help.
+      const range = field.min == null || field.range_words ? '' : ` Range ${showNumber(field.min)} to ${showNumber(field.max)}.`;
       hint.textContent = `${field.help}${range} Default ${showDefault(field, field.default, false)}.`;
       const error = element('p', 'field-error');
       error.id = `${id}-error`;
@@ -224,7 +230,7 @@ export class ScenarioForm {
       if (field.trait === 'name') range.scope = 'row';
       rangeRow.append(range);
       const meaning = field.min == null ? field.help : `${field.help} Range ${rangeText(field)}.`;
-      guide.append(element('dt', null, field.unit ? `${field.label} (${field.unit})` : field.label),
+      guide.append(element('dt', null, labelWithUnit(field)),
         element('dd', null, meaning));
       const description = element('span', null, meaning);
       description.id = `pt-help-${field.trait}`;
@@ -427,7 +433,8 @@ export class ScenarioForm {
       if (!Number.isFinite(value)) problem = `“${text}” is not a number.`;
       else if (field.kind === 'integer' && !Number.isInteger(value)) problem = 'Enter a whole number.';
       else if (field.min != null && (value < field.min || value > field.max)) {
-        problem = `Must be between ${showNumber(field.min)} and ${withUnit(showNumber(field.max), field.unit)}.`;
+        problem = field.range_words ? `Must be ${field.range_words}.`
+          : `Must be between ${showNumber(field.min)} and ${withUnit(showNumber(field.max), field.unit)}.`;
       }
     }
     this.flag(entry, problem);

@@ -1,5 +1,5 @@
 // The zone panel: a planner's zone (GeoJSON polygons in the terrain's CRS) opened from a file,
-// Shift-dropped on the map or drawn on it corner by corner, its key years and a table of every
+// dropped on the map (main.js asks what a dropped GeoJSON is) or drawn on it corner by corner, its key years and a table of every
 // tenth year (plus the year on the map) from the engine's zone timeline, the outline on the
 // map, and downloads of the zone (GeoJSON) and its timeline (CSV).
 
@@ -14,10 +14,10 @@ export class ZonePanel {
   /**
    * @param {{workspace: object, map: object, elements: Record<string, HTMLElement>,
    *   year: () => number | null, showError: (message: string) => void,
-   *   clearError: () => void, dropTarget: HTMLElement,
+   *   clearError: () => void,
    *   terrain: () => ({west_m: number, north_m: number, cell_size_m: number} | null)}} options
    */
-  constructor({ workspace, map, elements, year, showError, clearError, dropTarget, terrain }) {
+  constructor({ workspace, map, elements, year, showError, clearError, terrain }) {
     this.workspace = workspace;
     this.terrain = terrain;
     this.text = null;
@@ -33,7 +33,6 @@ export class ZonePanel {
     this.clearError = clearError;
     this.zone = null;
     this.timeline = null;
-    this.shiftDrop = false;
     this.el.open.addEventListener('click', () => this.el.input.click());
     this.el.input.addEventListener('change', () => {
       const [file] = this.el.input.files;
@@ -48,19 +47,8 @@ export class ZonePanel {
     document.addEventListener('keydown', (event) => {
       if (event.key === 'Escape' && this.corners) this.stopDrawing();
     });
-    // Seen before the map's own drop handler hands the files on (see claimsDrop).
-    dropTarget.addEventListener('drop', (event) => { this.shiftDrop = event.shiftKey; }, true);
     map.setOverlay((ctx, view) => this.drawOutline(ctx, view));
     this.render();
-  }
-
-  /** True when the files just dropped were one GeoJSON with Shift held: a zone, not ice. */
-  claimsDrop(files) {
-    const shift = this.shiftDrop;
-    this.shiftDrop = false;
-    if (!shift || files.length !== 1 || !isGeoJsonName(files[0].name)) return false;
-    this.open(files[0]);
-    return true;
   }
 
   async open(file) {
@@ -174,9 +162,9 @@ export class ZonePanel {
     const n = drawing ? this.corners.length : 0;
     this.el.hint.textContent = drawing
       ? `Click the map (or press Enter under the cross) at each corner: ${n} so far${n < 3 ? ', three at least' : ''}. Esc cancels.`
-      : !zone ? 'Draw one on the map, or open a GeoJSON polygon in the terrain’s CRS (or Shift-drop it on the map). After a run its timeline shows here.'
+      : !zone ? 'Draw one on the map, or open a GeoJSON polygon in the terrain’s CRS (or drop it on the map and choose Zone). After a run its timeline shows here.'
       : this.pending ? 'Reading the zone through the run…'
-      : this.timeline ? 'First year at least half the zone is there (+: that stage or later); the table gives each stage’s share of the zone.'
+      : this.timeline ? 'First year at least half the zone is ice-free, or at that stage or a later one; the table gives each stage’s share of the zone.'
         : 'Run the scenario to see the zone’s timeline.';
     this.el.keys.hidden = !this.timeline;
     this.el.tableBox.hidden = !this.timeline;
@@ -184,7 +172,7 @@ export class ZonePanel {
     const t = this.timeline;
     this.el.keys.replaceChildren(...t.key_years.flatMap((key) => {
       const dt = document.createElement('dt');
-      dt.textContent = key.stage_code === 1 ? 'Half ice-free' : `Half ${key.label}+`;
+      dt.textContent = key.stage_code === 1 ? 'Half ice-free' : `Half ${key.label} or later`;
       const dd = document.createElement('dd');
       dd.textContent = key.year == null ? `not by ${t.years[t.years.length - 1]}` : String(key.year);
       return [dt, dd];
@@ -206,15 +194,16 @@ export class ZonePanel {
     const cellHa = t.cell_size_m ** 2 / 1e4;
     const count = (areaKm2) => Math.round((areaKm2 * HA_PER_KM2) / cellHa);
     const share = (n) => ((100 * n) / t.n_cells).toFixed(0);
-    const columns = [['Year', ''], ['Ice', 'ha']];
+    const columns = [['Year', ''], ['Ice area', 'ha']];
     if (plants) {
-      columns.push(['Bare', '%'], ['Pion.', '%'], ['Mead.', '%'], ['Shrub', '%'], ['Forest', '%']);
+      // Soft hyphens: whole names that still fit the side panel's width.
+      columns.push(['Bare ground', '%'], ['Pio\u00adneer', '%'], ['Mea\u00addow', '%'], ['Shrub\u00adland', '%'], ['Forest', '%']);
     } else {
-      columns.push(['Ice', 'km³'], ['Freed', 'ha']);
+      columns.push(['Ice volume', 'km³'], ['Newly exposed', 'ha']);
     }
     const titles = {
-      'Pion.': 'Pioneer', 'Mead.': 'Meadow', Shrub: 'Shrubland', Forest: 'Young and mature forest',
-      Freed: 'Newly exposed that year',
+      Forest: 'Young and mature forest',
+      'Newly exposed': 'Ground that became ice-free that year',
     };
     const head = document.createElement('tr');
     for (const [name, unit] of columns) {

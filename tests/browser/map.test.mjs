@@ -58,7 +58,7 @@ describe('the Forefield page', () => {
     assert.ok(difference > 60, `low ${lowColour} and high ${highColour} cells look alike`);
 
     const legendText = await session.page.locator('#legend').innerText();
-    assert.match(legendText, /Elevation \(m\)/);
+    assert.match(legendText, /Surface elevation \(m\)/);
     const legend = await session.page.evaluate(() => window.forefield.legend());
     assert.ok(legend.stops.length >= 2);
     assert.match(await fileInfoText(), /valley_dem\.tif/);

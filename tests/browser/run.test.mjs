@@ -99,7 +99,7 @@ describe('a run of the sample scenario', () => {
     assert.ok(cell, 'no cell of the sample melts out between 2035 and 2085');
     const engine = await page.evaluate(({ col, row }) => window.forefield.engineCellSeries(col, row), cell);
     const exposedIndex = engine.years.findIndex((y, i) => i > 0 && engine.ice_thickness_m[i] < 1);
-    assert.equal(engine.year_exposed, engine.years[exposedIndex]);
+    assert.equal(engine.exposure_year, engine.years[exposedIndex]);
     const yearWithIce = engine.years[Math.max(1, exposedIndex - 3)];
 
     // Show a year when the cell still has ice, then click the cell on the map.
@@ -112,7 +112,7 @@ describe('a run of the sample scenario', () => {
     await page.mouse.click(point.x, point.y);
     await page.locator('#hi-cell').filter({ hasText: `col ${cell.col}, row ${cell.row}` }).waitFor();
 
-    assert.equal(shownNumber(await page.locator('#hi-exposed').innerText()), engine.year_exposed);
+    assert.equal(shownNumber(await page.locator('#hi-exposed').innerText()), engine.exposure_year);
     const shownIce = shownNumber(await page.locator('#hi-ice').innerText());
     const engineIce = engine.ice_thickness_m[engine.years.indexOf(yearWithIce)];
     // Kept in 0.05 m steps, shown to 0.1 m: within 0.025 + 0.05 m.
@@ -144,18 +144,18 @@ describe('a run of the sample scenario', () => {
     await page.selectOption('#layer', 'exposure_year');
     assert.equal((await runState()).layer, 'exposure_year');
     const legend = await page.locator('#legend').innerText();
-    assert.match(legend, /Year exposed/);
+    assert.match(legend, /Exposure year/);
     assert.match(legend, /2025/);
     assert.match(legend, /2085/);
     assert.match(legend, /under ice/);
     const after = await mapSnapshot();
     assert.notEqual(after.hash, before.hash);
     const engineLegend = await page.evaluate(() => window.forefield.legend());
-    assert.equal(engineLegend.title, 'Year exposed');
+    assert.equal(engineLegend.title, 'Exposure year');
     assert.equal(engineLegend.max, 2085);
     await page.screenshot({ path: join(ARTIFACTS, 'run-exposure-year.png') });
     await page.selectOption('#layer', 'terrain');
-    assert.match(await page.locator('#legend').innerText(), /Elevation \(m\)/);
+    assert.match(await page.locator('#legend').innerText(), /Surface elevation \(m\)/);
     await page.selectOption('#layer', 'ice_thickness');
   });
 

@@ -6,7 +6,7 @@
 // in degrees is converted to the terrain's UTM zone and, off the terrain, refused by name while
 // the zone before stays; a zone drawn on the map counts the
 // cells its corners enclose and its saved GeoJSON gives the command line the same table;
-// Shift-drop opens a zone while a plain drop still takes a glacier outline.
+// a GeoJSON dropped on the map asks whether it is a zone, a glacier outline or a domain.
 
 import { after, before, describe, test } from 'node:test';
 import assert from 'node:assert/strict';
@@ -118,6 +118,10 @@ describe('a zone from GeoJSON', () => {
     const halfFree = years.find((_, k) => 2 * cells.filter((cell) => !cell.ice[k]).length >= cells.length);
     const keys = await page.locator('#zone-keys').innerText();
     assert.match(keys, new RegExp(`Half ice-free\\s+${halfFree ?? `not by ${last}`}`));
+    assert.match(keys, /Half pioneer or later/);
+    // Whole names, one per column, in the stage names the legend uses.
+    const heads = await page.locator('#zone-table-head th').evaluateAll((ths) => ths.map((th) => th.firstChild.textContent.replace(/\u00ad/g, '')));
+    assert.deepEqual(heads, ['Year', 'Ice area', 'Bare ground', 'Pioneer', 'Meadow', 'Shrubland', 'Forest']);
     // The year on the map is highlighted; moving the slider moves the highlight.
     await page.locator('#year-back').click();
     await page.locator(`#zone-table-body tr[data-year="${last - 1}"].zone-current`).waitFor();
@@ -220,22 +224,37 @@ describe('a zone from GeoJSON', () => {
     assert.match(await page.locator('#zone-summary').innerText(), /^drawn_zone\.geojson:/);
   });
 
-  test('Shift-drop on the map opens a zone; a plain drop still takes a glacier outline', async () => {
+  test('a GeoJSON dropped on the map asks what it is: a zone, a glacier outline, or nothing', async () => {
     const { page } = session;
     const small = rectangle({ c0: 200, c1: 210, r0: 140, r1: 150 });
-    const drop = (shiftKey, name) => page.evaluate(([text, shift, fileName]) => {
+    const drop = (name) => page.evaluate(([text, fileName]) => {
       const data = new DataTransfer();
       data.items.add(new File([text], fileName, { type: 'application/geo+json' }));
       document.getElementById('map-frame').dispatchEvent(
-        new DragEvent('drop', { dataTransfer: data, shiftKey: shift, bubbles: true, cancelable: true }));
-    }, [small, shiftKey, name]);
+        new DragEvent('drop', { dataTransfer: data, bubbles: true, cancelable: true }));
+    }, [small, name]);
+    const choice = page.locator('#drop-choice');
     const zonesBefore = await zoneCount();
-    await drop(true, 'dropped.geojson');
+    await drop('dropped.geojson');
+    await choice.waitFor();
+    assert.equal(await page.locator('#drop-choice-title').innerText(), 'What is dropped.geojson?');
+    assert.deepEqual(await choice.locator('button').allInnerTexts(), ['Glacier outline', 'Glacier domain', 'Zone', 'Cancel']);
+    await page.screenshot({ path: join(ARTIFACTS, 'zones-drop-choice.png') });
+    await choice.locator('button', { hasText: 'Zone' }).click();
     await page.waitForFunction((n) => Number(document.body.dataset.zones ?? 0) > n, zonesBefore);
+    assert.equal(await choice.isHidden(), true);
     assert.match(await page.locator('#zone-summary').innerText(), /^dropped\.geojson: 100 cells/);
     assert.doesNotMatch(await page.locator('#fi-ice').innerText(), /dropped/);
+    // Cancel (or Escape) changes nothing.
+    await drop('ignored.geojson');
+    await choice.waitFor();
+    await page.keyboard.press('Escape');
+    assert.equal(await choice.isHidden(), true);
+    assert.doesNotMatch(await page.locator('#fi-ice').innerText(), /ignored/);
+    assert.match(await page.locator('#zone-summary').innerText(), /^dropped\.geojson:/);
     const inputsBefore = Number(await page.locator('body').getAttribute('data-inputs') ?? 0);
-    await drop(false, 'outline.geojson');
+    await drop('outline.geojson');
+    await choice.locator('button', { hasText: 'Glacier outline' }).click();
     await page.waitForFunction((n) => Number(document.body.dataset.inputs ?? 0) > n, inputsBefore);
     assert.equal(await page.locator('#fi-ice').innerText(), 'outline.geojson');
     assert.match(await page.locator('#zone-summary').innerText(), /^dropped\.geojson:/);

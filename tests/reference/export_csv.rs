@@ -137,7 +137,9 @@ fn cells_stream_in_chunks_and_match_the_timeline() {
         assert!((num(&record, c_h) - h).abs() <= 0.005 + 1e-6, "cell {idx}");
         match timeline.cover_at(idx, year) {
             (false, Some(exposed)) => assert_eq!(num(&record, c_exp) as i32, exposed),
-            _ => assert_eq!(&record[c_exp], ""),
+            // -1 for ground ice-free at the start, as in the exposure-year GeoTIFF.
+            (false, None) => assert_eq!(&record[c_exp], "-1"),
+            (true, _) => assert_eq!(&record[c_exp], ""),
         }
         assert_eq!(num(&record, c_stage) as u8, stage[idx]);
         for t in 0..timeline.type_names().len() {

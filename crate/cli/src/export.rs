@@ -10,7 +10,7 @@ use forefield_engine::geotiff::read_geotiff;
 use forefield_engine::scenario::Scenario;
 use forefield_engine::timeline::Timeline;
 
-use crate::exports::{write_exports, ExportRequest, EXPORT_OPTIONS};
+use crate::exports::{export_options, write_exports, ExportRequest};
 use crate::run::{SCENARIO_FILE, TERRAIN_FILE, TIMELINE_FILE};
 
 pub fn usage() -> String {
@@ -19,7 +19,8 @@ pub fn usage() -> String {
 
     RUN_DIR             a folder written by `forefield run`
     --out DIR           output folder (default RUN_DIR)
-{EXPORT_OPTIONS}"
+{}",
+        export_options()
     )
 }
 

@@ -6,13 +6,16 @@ use std::path::Path;
 use std::time::Instant;
 
 use anyhow::{bail, Context, Result};
-use forefield_engine::export::csv_tables::{cell_history_csv, CellsCsv, DEFAULT_CHUNK_ROWS};
+use forefield_engine::export::csv_tables::{
+    cell_history_csv, column_word, CellsCsv, DEFAULT_CHUNK_ROWS,
+};
 use forefield_engine::export::geojson_shapes::{ice_outlines_geojson, stage_polygons_geojson};
 use forefield_engine::export::layer_geotiff::layer_geotiff;
 use forefield_engine::export::png_snapshot::snapshot_png;
 use forefield_engine::export::{bed_renderer, layer_file_stem, layer_kind, ExportMeta};
 use forefield_engine::grid::Grid;
 use forefield_engine::layers::LayerKind;
+use forefield_engine::pft::PlantType;
 use forefield_engine::timeline::Timeline;
 
 /// What to export: years, layers, formats and cells whose history to write.
@@ -31,16 +34,33 @@ pub struct ExportRequest {
 
 pub const FORMATS: [&str; 4] = ["png", "tif", "csv", "geojson"];
 
-// No line-continuation backslash: it would eat the first line's indent.
-pub const EXPORT_OPTIONS: &str =
-    "    --years Y,Y,...     years to export, or `last` (default), `start`, `all`
-    --layers L,L,...    ice_thickness, exposure_year, stage, cover:N, soil, lakes,
+/// The export options' help, with the default plant types' layer names.
+pub fn export_options() -> String {
+    let types: String = PlantType::defaults()
+        .iter()
+        .enumerate()
+        .map(|(t, plant)| {
+            format!(
+                "\n                          cover:{} (or cover:{t})",
+                column_word(&plant.name)
+            )
+        })
+        .collect();
+    // No line-continuation backslash: it would eat the first line's indent.
+    format!(
+        "    --years Y,Y,...     years to export, or `last` (default), `start`, `all`
+    --layers L,L,...    ice_thickness, exposure_year, stage, cover:TYPE, soil, lakes,
                         steep_bare, glacier_domain, or `all`
                         (default ice_thickness, and stage for runs with plants)
+                        TYPE is a plant type's name, as written in the scenario (quoted if
+                        it has spaces) or with _ for spaces, or its place in the scenario's
+                        list counting from 0; the default types:{types}
     --formats F,F,...   png, tif, csv, geojson (default all four)
     --cell COL,ROW      also write this cell's history as CSV (repeat for several cells)
     --zone FILE.geojson also write the timeline of the zone's polygons (in the terrain's CRS)
-                        as zone_<file stem>_timeline.csv (repeat for several zones)";
+                        as zone_<file stem>_timeline.csv (repeat for several zones)"
+    )
+}
 
 impl ExportRequest {
     /// Takes an export option and its value, if `word` is one.
@@ -183,7 +203,7 @@ pub fn write_exports(
     let mut renderer = wants("png").then(|| bed_renderer(dem, timeline));
     for &year in &years {
         for &kind in &layers {
-            let stem = layer_file_stem(kind);
+            let stem = layer_file_stem(timeline, kind);
             if let Some(renderer) = renderer.as_mut() {
                 write_timed(&out_dir.join(format!("snapshot_{stem}_{year}.png")), || {
                     Ok(snapshot_png(timeline, renderer, dem, meta, kind, year)?.png)

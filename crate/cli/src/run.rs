@@ -2,28 +2,29 @@
 //! options]`: runs the coupled ice and plant model of a scenario file through the engine's
 //! recorded run (as the page's worker does) and writes the yearly summary (CSV), the
 //! timeline, the terrain it ran on, ice thickness for the scenario's output years and the
-//! exposure years (GeoTIFF), and the exports asked for. Grid file names in the scenario are
+//! last year's exposure years (GeoTIFF), and the exports asked for. Grid file names in the scenario are
 //! relative to the scenario file.
 
 use std::path::{Path, PathBuf};
 
 use anyhow::{bail, Context, Result};
 use forefield_engine::export::csv_tables::summary_csv;
+use forefield_engine::export::layer_geotiff::layer_geotiff;
 use forefield_engine::export::{ExportMeta, CAUTION};
-use forefield_engine::exposure::{ICE_FREE_AT_START, STILL_ICE_COVERED};
 use forefield_engine::geotiff::{read_geotiff, write_geotiff, ReadOptions};
 use forefield_engine::grid::Grid;
 use forefield_engine::ice_outline::thickness_from_outline;
+use forefield_engine::layers::LayerKind;
 use forefield_engine::outline::outline_mask;
 use forefield_engine::recorded_run::RecordedRun;
 use forefield_engine::run_inputs::{fit_domain, fit_vegetation, read_run_inputs, IceInput};
 use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation};
 
-use crate::exports::{write_exports, write_file, ExportRequest, EXPORT_OPTIONS};
+use crate::exports::{export_options, write_exports, write_file, ExportRequest};
 
-/// Value written to `year_exposed.tif` for cells ice-free since before the start.
-pub const EXPOSED_BEFORE_START_VALUE: f32 = -1.0;
+/// The last year's exposure years, as `layer_exposure_year_<last year>.tif`.
+pub const EXPOSURE_YEAR_FILE: &str = "exposure_year.tif";
 
 /// Nodata marker of the written GeoTIFFs.
 const NODATA_VALUE: f64 = -9999.0;
@@ -44,7 +45,8 @@ pub fn usage() -> String {
     --cell-size M       working cell size, m: the surface DEM is coarsened on load to the
                         whole multiple of its cell nearest M (area mean); a DEM over the
                         model's cell limit is coarsened to fit in any case
-{EXPORT_OPTIONS}"
+{}",
+        export_options()
     )
 }
 
@@ -175,9 +177,16 @@ pub fn run(args: &[String]) -> Result<()> {
     )?;
     write_file(&out_dir.join(TIMELINE_FILE), &timeline.to_bytes())?;
     write_file(&out_dir.join(TERRAIN_FILE), &write_geotiff(&terrain))?;
+    // The exposure-year layer of the last year, coded as every other exposure-year file.
     write_file(
-        &out_dir.join("year_exposed.tif"),
-        &write_geotiff(&exposure_grid(&bed, run.ice())),
+        &out_dir.join(EXPOSURE_YEAR_FILE),
+        &layer_geotiff(
+            &timeline,
+            &terrain,
+            &meta,
+            LayerKind::ExposureYear,
+            timeline.last_year(),
+        )?,
     )?;
     write_file(&out_dir.join(SCENARIO_FILE), scenario.to_json().as_bytes())?;
     write_exports(&out_dir, &timeline, &terrain, &meta, &request)?;
@@ -221,7 +230,7 @@ fn load_inputs(
         None => None,
     };
     let mask_is_tiff = grids
-        .glacier_mask
+        .glacier_outline_or_mask
         .as_deref()
         .is_some_and(|name| !is_geojson(name));
     if let (Some(surface_name), None, false) =
@@ -230,7 +239,7 @@ fn load_inputs(
         let surface_bytes = read_bytes(&base.join(surface_name))?;
         let thickness_bytes;
         let outline_text;
-        let ice = match (&grids.ice_thickness, &grids.glacier_mask) {
+        let ice = match (&grids.ice_thickness, &grids.glacier_outline_or_mask) {
             (Some(name), _) => {
                 thickness_bytes = read_bytes(&base.join(name))?;
                 IceInput::Thickness {
@@ -312,7 +321,7 @@ fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<IceInputs> {
     let bed = read_grid(base, &grids.bed_elevation)?;
     let thickness = read_grid(base, &grids.ice_thickness)?;
     // A glacier outline is a GeoTIFF mask or a GeoJSON polygon file.
-    let outline_text = match grids.glacier_mask.as_deref() {
+    let outline_text = match grids.glacier_outline_or_mask.as_deref() {
         Some(name) if is_geojson(name) => {
             let path = base.join(name);
             Some(
@@ -324,7 +333,7 @@ fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<IceInputs> {
     };
     let mask = match outline_text {
         Some(_) => None,
-        None => read_grid(base, &grids.glacier_mask)?,
+        None => read_grid(base, &grids.glacier_outline_or_mask)?,
     };
     let zero_like = |grid: &Grid| Grid::filled(grid.geometry, 0.0);
     let inputs = |terrain: Grid, bed: Grid, thickness: Grid| IceInputs {
@@ -342,7 +351,7 @@ fn load_ice_inputs(scenario: &Scenario, base: &Path) -> Result<IceInputs> {
             inputs(surface, bed, thickness)
         }
         (Some(surface), None, None, mask) if mask.is_some() || outline_text.is_some() => {
-            let name = grids.glacier_mask.as_deref().unwrap_or_default();
+            let name = grids.glacier_outline_or_mask.as_deref().unwrap_or_default();
             let inside: Vec<bool> = match (mask, &outline_text) {
                 (_, Some(text)) => outline_mask(text, name, &surface.geometry)?,
                 (Some(mask), None) => {
@@ -406,22 +415,6 @@ fn write_thickness(out_dir: &Path, bed: &Grid, simulation: &IceSimulation) -> Re
     }
     let name = format!("ice_thickness_{}.tif", simulation.year());
     write_file(&out_dir.join(name), &write_geotiff(&grid))
-}
-
-/// Exposure years as a float layer: the year, -1 for ice-free since before the start,
-/// nodata under ice or where the bed has no data.
-fn exposure_grid(bed: &Grid, simulation: &IceSimulation) -> Grid {
-    let mut grid = layer_like(bed);
-    for (idx, &year) in simulation.year_exposed().iter().enumerate() {
-        let missing = bed.nodata[idx] || year == STILL_ICE_COVERED;
-        grid.nodata[idx] = missing;
-        grid.values[idx] = match year {
-            _ if missing => f32::NAN,
-            ICE_FREE_AT_START => EXPOSED_BEFORE_START_VALUE,
-            year => year as f32,
-        };
-    }
-    grid
 }
 
 fn layer_like(bed: &Grid) -> Grid {

@@ -448,7 +448,7 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
                 timeline.last_year().max(timeline.start_year() + 1),
             );
             LayerLegend {
-                title: "Year exposed".into(),
+                title: "Exposure year".into(),
                 unit: "year".into(),
                 min: f64::from(first),
                 max: f64::from(last),
@@ -457,7 +457,9 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
                     class("under ice", ICE_FLAT),
                     class("ice-free at the start", GROUND_GREY),
                 ],
-                note: "Year the ground became ice-free (the latest, if ice came back).".into(),
+                note: "Year the ground became ice-free (the latest, if ice came back). In the \
+                       files: -1 ice-free at the start, no value under ice."
+                    .into(),
             }
         }
         LayerKind::Stage => LayerLegend {
@@ -484,7 +486,9 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
                 max: 100.0,
                 stops: ramp_stops(COVER_RAMP, 0.0, 100.0),
                 classes: vec![class("under ice", ICE_FLAT)],
-                note: "Share of the cell covered, in 0.4 % steps, between stored years.".into(),
+                note: "Share of the cell covered, in 0.4 % steps; the run keeps cover every few \
+                       years and draws the years between by interpolation."
+                    .into(),
             }
         }
         LayerKind::Soil => LayerLegend {
@@ -494,7 +498,7 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
             max: 1.0,
             stops: ramp_stops(SOIL_RAMP, 0.0, 1.0),
             classes: vec![class("under ice", ICE_FLAT)],
-            note: "0 raw till, 1 mature soil.".into(),
+            note: "0 raw till (the bare rock debris a glacier leaves), 1 mature soil.".into(),
         },
         LayerKind::Lakes => LayerLegend {
             title: "New lakes (potential), depth".into(),

@@ -80,8 +80,10 @@ pub enum LoadProblem {
         east_m: f64,
         north_m: f64,
     },
-    #[error("the values look absurd for {what}: {value} {unit} (expected {min} to {max} {unit})")]
-    AbsurdValue {
+    #[error(
+        "a cell holds {value} {unit}, outside the {min} to {max} {unit} the model takes for {what}"
+    )]
+    ValueOutOfRange {
         what: &'static str,
         value: f64,
         unit: &'static str,

@@ -67,7 +67,7 @@ pub fn fit_ice_thickness(
         if lo < 0.0 || f64::from(hi) > MAX_ICE_THICKNESS_M {
             return Err(LoadError::new(
                 name,
-                LoadProblem::AbsurdValue {
+                LoadProblem::ValueOutOfRange {
                     what: "ice thickness",
                     value: f64::from(worst),
                     unit: "m",

@@ -80,8 +80,10 @@ pub struct GridFiles {
     pub bed_elevation: Option<String>,
     /// Initial ice thickness, m, GeoTIFF; nodata counts as no ice.
     pub ice_thickness: Option<String>,
-    /// Glacier mask, GeoTIFF: cells with a value above zero lie inside the glacier.
-    pub glacier_mask: Option<String>,
+    /// Where the glacier lies: a GeoTIFF mask (cells above zero) or a GeoJSON outline.
+    /// `glacier_mask`, its earlier name, still loads.
+    #[serde(alias = "glacier_mask")]
+    pub glacier_outline_or_mask: Option<String>,
     /// Glacier domain, where the balance may add ice: a GeoTIFF (cells above zero) or a
     /// GeoJSON polygon. Default: the starting ice, the ground touching it and the ground
     /// draining into them.
@@ -95,15 +97,15 @@ impl GridFiles {
             self.surface_elevation.is_some(),
             self.bed_elevation.is_some(),
             self.ice_thickness.is_some(),
-            self.glacier_mask.is_some(),
+            self.glacier_outline_or_mask.is_some(),
         ) {
             (false, false, _, _) => Some("name surface_elevation or bed_elevation"),
             (true, true, true, _) => Some(
                 "give two of surface_elevation, bed_elevation and ice_thickness, not all three",
             ),
-            (_, _, true, true) => Some("give ice_thickness or glacier_mask, not both"),
+            (_, _, true, true) => Some("give ice_thickness or glacier_outline_or_mask, not both"),
             (false, true, _, true) => {
-                Some("glacier_mask needs surface_elevation to estimate thickness")
+                Some("glacier_outline_or_mask needs surface_elevation to estimate thickness")
             }
             _ => None,
         };
@@ -111,7 +113,10 @@ impl GridFiles {
             ("grids.surface_elevation", &self.surface_elevation),
             ("grids.bed_elevation", &self.bed_elevation),
             ("grids.ice_thickness", &self.ice_thickness),
-            ("grids.glacier_mask", &self.glacier_mask),
+            (
+                "grids.glacier_outline_or_mask",
+                &self.glacier_outline_or_mask,
+            ),
             ("grids.glacier_domain", &self.glacier_domain),
         ] {
             if name.as_deref().is_some_and(|n| n.trim().is_empty()) {
@@ -184,7 +189,8 @@ pub struct Scenario {
     pub mass_balance: MassBalanceParams,
     #[serde(default)]
     pub flow: FlowParams,
-    /// Thickness estimate from a glacier mask, used when `grids.glacier_mask` is given.
+    /// Thickness estimate inside the glacier, used when `grids.glacier_outline_or_mask` is
+    /// given.
     #[serde(default)]
     pub outline: PlasticityParams,
     /// Seed for every random choice of the run, 0 to 2^53 - 1. Same seed, same numbers.
@@ -411,7 +417,17 @@ mod tests {
             r#"{"version": 1, "grids": {"bed_elevation": "b.tif", "glacier_mask": "m.tif"}}"#,
         )
         .unwrap_err();
-        assert!(err.to_string().contains("glacier_mask"), "{err}");
+        assert!(err.to_string().contains("glacier_outline_or_mask"), "{err}");
+        // Scenario files written before the rename still load.
+        let old = Scenario::from_json(
+            r#"{"version": 1, "grids": {"surface_elevation": "s.tif", "glacier_mask": "m.geojson"}}"#,
+        )
+        .unwrap();
+        assert_eq!(
+            old.grids.glacier_outline_or_mask.as_deref(),
+            Some("m.geojson")
+        );
+        assert!(old.to_json().contains("glacier_outline_or_mask"));
     }
 
     #[test]

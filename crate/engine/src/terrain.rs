@@ -29,7 +29,7 @@ pub fn check_elevations(dem: &Grid, source_name: &str) -> Result<(f32, f32), Loa
     let (min, max) = ELEVATION_LIMITS_M;
     for value in [lo, hi] {
         if !(min..=max).contains(&value) {
-            let problem = LoadProblem::AbsurdValue {
+            let problem = LoadProblem::ValueOutOfRange {
                 what: "elevation",
                 value: f64::from(value),
                 unit: "m",

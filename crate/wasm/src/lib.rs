@@ -4,7 +4,9 @@
 mod schema;
 
 use forefield_engine::export::csv_tables::{cell_history_csv, summary_csv, CellsCsv};
-use forefield_engine::export::geojson_shapes::{ice_outlines_geojson, stage_polygons_geojson};
+use forefield_engine::export::geojson_shapes::{
+    coordinates_note, ice_outlines_geojson, stage_polygons_geojson,
+};
 use forefield_engine::export::layer_geotiff::layer_geotiff;
 use forefield_engine::export::png_snapshot::snapshot_png;
 use forefield_engine::export::{
@@ -45,6 +47,8 @@ struct TerrainInfo {
     max_elevation_m: f32,
     nodata_cells: usize,
     notes: Vec<String>,
+    /// What the GeoJSON exports' positions are on this terrain.
+    geojson_coordinates: String,
 }
 
 #[derive(Serialize)]
@@ -206,6 +210,7 @@ impl Workspace {
             max_elevation_m: hi,
             nodata_cells: dem.geometry.n_cells() - dem.n_valid(),
             notes,
+            geojson_coordinates: coordinates_note(&dem.geometry),
         };
         // A run belongs to the terrain it was made on, and so does a zone.
         self.timeline = None;
@@ -300,7 +305,7 @@ impl Workspace {
             .ok_or_else(|| JsError::new("no terrain is loaded"))?;
         let (lo, hi) = terrain.range;
         to_js(&Legend::continuous(
-            "Elevation",
+            "Surface elevation",
             "m",
             f64::from(lo),
             f64::from(hi),
@@ -468,12 +473,12 @@ impl Workspace {
             .map_err(export_error)
     }
 
-    /// The file-name stem the command line uses for a layer (e.g. `cover_2` for `cover:2`).
+    /// The file-name stem the command line uses for a layer (e.g. `cover_grasses_and_sedges`).
     #[wasm_bindgen(js_name = layerFileStem)]
     pub fn layer_file_stem(&self, layer: &str) -> Result<String, JsError> {
         let (_, loaded) = self.run_parts()?;
         let kind = layer_kind(&loaded.timeline, layer).map_err(export_error)?;
-        Ok(layer_file_stem(kind))
+        Ok(layer_file_stem(&loaded.timeline, kind))
     }
 
     /// Ice outlines at the end of each year as RFC 7946 GeoJSON.

@@ -50,19 +50,43 @@ pub struct FieldSchema {
     pub min: Option<f64>,
     pub max: Option<f64>,
     pub unit: String,
+    /// The range in words, where its numbers would not read well (the seed's 2^53 - 1).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub range_words: Option<&'static str>,
     /// The values a choice field offers, in display order.
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub options: Vec<ChoiceOption>,
 }
 
-/// Groups in display order.
-pub const GROUPS: [(&str, &str); 5] = [
+/// Groups in display order; the page opens "run" and "climate" and folds the rest.
+pub const GROUPS: [(&str, &str); 6] = [
     ("run", "Run"),
     ("climate", "Climate"),
     ("ice", "Ice"),
     ("plants", "Plants"),
     ("soil", "Soil and stages"),
+    ("advanced", "Advanced: numerics and flow-law constants"),
 ];
+
+/// A unit as the page writes it: temperatures and their differences in °C, one style.
+pub fn display_unit(unit: &str) -> String {
+    match unit {
+        "C/decade" => "°C per decade",
+        "K" | "C" | "degrees C" => "°C",
+        "m/K" => "m per °C",
+        "K per km" => "°C per km",
+        "kg/m3" => "kg per m³",
+        "Pa^-3 m2 s^-1" => "Pa⁻³ m² s⁻¹",
+        "Pa^-3 s^-1" => "Pa⁻³ s⁻¹",
+        "seeds per m2 per year" => "seeds per m² per year",
+        other => other,
+    }
+    .to_string()
+}
+
+fn range_words(path: &str) -> Option<&'static str> {
+    (path == "seed").then_some("any whole number from 0 up to 2^53 − 1")
+}
 
 /// Marks a per-type path: `vegetation.types[].trait`.
 pub const PER_TYPE: &str = "vegetation.types[].";
@@ -99,7 +123,7 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         "Random seed",
         FieldKind::Integer,
         false,
-        "Same seed, same numbers: change it to see another random outcome.",
+        "Same seed, same numbers: change it to see another random outcome. Any whole number from 0 up to 2^53 − 1.",
     ),
     (
         "climate.warming_c_per_decade",
@@ -155,7 +179,7 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         "Calibrate to mean balance",
         FieldKind::Number,
         true,
-        "Glacier-wide mean balance on the starting glacier (e.g. a measured rate); empty with the two fields around it means 0, a glacier in balance.",
+        "Glacier-wide mean balance on the starting glacier (e.g. a measured rate), in metres of water equivalent (m w.e.: the depth of water the ice gained or lost would make) per year; empty with the two fields around it means 0, a glacier in balance.",
     ),
     (
         "mass_balance.balanced_aar",
@@ -195,12 +219,12 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         "Snow a level cell keeps",
         FieldKind::Number,
         false,
-        "Most snow a level cell keeps in a year; less on steeper ground.",
+        "Most snow a level cell keeps in a year, as water equivalent; less on steeper ground.",
     ),
     (
         "mass_balance.ela_sensitivity_m_per_k",
         "ice",
-        "ELA rise per degree",
+        "ELA rise with warming",
         FieldKind::Number,
         false,
         "How far the equilibrium line climbs per degree of warming.",
@@ -231,15 +255,15 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
     ),
     (
         "flow.rate_factor_pa3_s",
-        "ice",
-        "Ice softness (Glen A)",
+        "advanced",
+        "Ice softness (Glen's A)",
         FieldKind::Number,
         false,
-        "Glen's flow-law rate factor; larger flows faster (warmer ice).",
+        "The rate factor A of Glen's flow law, which sets how easily ice deforms under stress; larger flows faster (warmer ice).",
     ),
     (
         "flow.ice_density_kg_m3",
-        "ice",
+        "advanced",
         "Ice density",
         FieldKind::Number,
         false,
@@ -247,7 +271,7 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
     ),
     (
         "flow.sliding_pa3_m2_s",
-        "ice",
+        "advanced",
         "Basal sliding",
         FieldKind::Number,
         false,
@@ -255,7 +279,7 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
     ),
     (
         "flow.ice_cell_size_m",
-        "ice",
+        "advanced",
         "Ice-grid cell size",
         FieldKind::Number,
         false,
@@ -263,11 +287,11 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
     ),
     (
         "flow.time_step_fraction",
-        "ice",
-        "Time-step safety",
+        "advanced",
+        "Time-step fraction",
         FieldKind::Number,
         false,
-        "Share of the stability limit used as time step; lower is safer.",
+        "Share of the stability limit used as the ice-flow time step; lower is safer and slower.",
     ),
     (
         "vegetation.growing_season.sea_level_temp_c",
@@ -287,7 +311,7 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
     ),
     (
         "vegetation.dispersal_cell_size_m",
-        "plants",
+        "advanced",
         "Dispersal cell size",
         FieldKind::Number,
         false,
@@ -312,10 +336,10 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
     (
         "vegetation.soil.q10",
         "soil",
-        "Soil rate per 10 K (Q10)",
+        "Soil rate per 10 °C (Q10)",
         FieldKind::Number,
         false,
-        "Factor by which the rate grows per 10 K of warmth.",
+        "Q10: the factor by which the rate grows for 10 °C more warmth (2 doubles it).",
     ),
     (
         "vegetation.soil.slope_half_rate_deg",
@@ -355,15 +379,15 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         "Meadow: total cover",
         FieldKind::Number,
         false,
-        "Plant cover a meadow needs, with the graminoid cover below.",
+        "Plant cover a meadow needs, with the grass and sedge cover below.",
     ),
     (
         "vegetation.stages.meadow_graminoid_cover",
         "soil",
-        "Meadow: graminoid cover",
+        "Meadow: grass and sedge cover",
         FieldKind::Number,
         false,
-        "Grass and sedge cover a meadow needs.",
+        "Cover of graminoids (grasses and sedges) a meadow needs.",
     ),
     (
         "vegetation.stages.shrubland_woody_cover",
@@ -403,7 +427,7 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         "Seed bank after a burn",
         FieldKind::Number,
         false,
-        "Seed left in the soil per unit of burnt cover, in years of seed rain.",
+        "Seed left in the soil per unit of burnt cover, in years of seed rain. Burns come only from a scenario file's disturbances list (Load…); without one this has no effect.",
     ),
     (
         "vegetation.seed_bank.duration_a",
@@ -411,7 +435,7 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         "Seed bank lasts",
         FieldKind::Number,
         false,
-        "Years the bank keeps germinating after a burn; it empties evenly.",
+        "Years the bank keeps germinating after a burn; it empties evenly. Only used where a scenario file places a burn.",
     ),
 ];
 
@@ -433,7 +457,7 @@ const PLANT_TRAITS: &[(&str, &str, FieldKind, &str)] = &[
         "kernel",
         "Dispersal kernel",
         FieldKind::Choice,
-        "Shape of the seed-distance curve; 2Dt has the fattest tail.",
+        "Shape of the seed-distance curve; 2Dt (a Student-t-like curve) has the fattest tail, so more seed goes far.",
     ),
     (
         "mean_dispersal_m",
@@ -487,7 +511,7 @@ const PLANT_TRAITS: &[(&str, &str, FieldKind, &str)] = &[
         "min_soil_index",
         "Minimum soil index",
         FieldKind::Number,
-        "Soil development needed to establish: 0 raw till, 1 mature soil.",
+        "Soil development needed to establish: 0 raw till (the bare rock debris a glacier leaves), 1 mature soil.",
     ),
     (
         "min_growing_season_temp_c",
@@ -550,7 +574,7 @@ fn kernel_label(kernel: KernelFamily) -> &'static str {
 fn growth_form_label(form: GrowthForm) -> &'static str {
     match form {
         GrowthForm::PioneerHerb => "pioneer herb",
-        GrowthForm::Graminoid => "graminoid",
+        GrowthForm::Graminoid => "graminoid (grass or sedge)",
         GrowthForm::Shrub => "shrub",
         GrowthForm::Tree => "tree",
     }
@@ -687,7 +711,8 @@ pub fn scenario_schema() -> Vec<FieldSchema> {
                 default: get(&defaults, path).cloned().unwrap_or(Value::Null),
                 min: range.as_ref().map(|r| r.0),
                 max: range.as_ref().map(|r| r.1),
-                unit: range.map(|r| r.2).unwrap_or_default(),
+                unit: range.map(|r| display_unit(&r.2)).unwrap_or_default(),
+                range_words: range_words(path),
                 options: field_options(path),
             }
         });
@@ -712,7 +737,8 @@ pub fn scenario_schema() -> Vec<FieldSchema> {
             ),
             min: range.as_ref().map(|r| r.0),
             max: range.as_ref().map(|r| r.1),
-            unit: range.map(|r| r.2).unwrap_or_default(),
+            unit: range.map(|r| display_unit(&r.2)).unwrap_or_default(),
+            range_words: None,
             options: choice_options(name),
         }
     });
@@ -729,16 +755,30 @@ pub struct ScenarioProblem {
 /// Checks scenario JSON with the engine's own parser and validation.
 pub fn check_scenario(json: &str) -> Option<ScenarioProblem> {
     let error = Scenario::from_json(json).err()?;
-    let field = match &error {
-        ScenarioError::OutOfRange { field, .. } | ScenarioError::Invalid { field, .. } => {
-            Some(field.clone())
+    let (field, message) = match &error {
+        // Said again in the page's units and words.
+        ScenarioError::OutOfRange {
+            field,
+            value,
+            min,
+            max,
+            unit,
+        } => {
+            let range = range_words(field)
+                .map(str::to_string)
+                .unwrap_or_else(|| format!("{min} to {max} {}", display_unit(unit)));
+            (
+                Some(field.clone()),
+                format!(
+                    "{field} = {value} is outside the valid range, {}",
+                    range.trim_end()
+                ),
+            )
         }
-        _ => None,
+        ScenarioError::Invalid { field, .. } => (Some(field.clone()), error.to_string()),
+        _ => (None, error.to_string()),
     };
-    Some(ScenarioProblem {
-        field,
-        message: error.to_string(),
-    })
+    Some(ScenarioProblem { field, message })
 }
 
 #[cfg(test)]
@@ -856,6 +896,34 @@ mod tests {
         assert_eq!(
             problem.field.as_deref(),
             Some("vegetation.types[0].mean_dispersal_m")
+        );
+    }
+
+    #[test]
+    fn temperatures_read_in_one_style() {
+        for field in scenario_schema() {
+            let words: Vec<&str> = field.unit.split(' ').collect();
+            assert!(
+                !words
+                    .iter()
+                    .any(|w| ["C", "K", "C/decade", "m/K"].contains(w)),
+                "{}: {}",
+                field.path,
+                field.unit
+            );
+        }
+        let problem =
+            check_scenario(r#"{"version": 1, "climate": {"warming_c_per_decade": 9}}"#).unwrap();
+        assert!(
+            problem.message.ends_with("-2 to 2 °C per decade"),
+            "{}",
+            problem.message
+        );
+        let seed = check_scenario(r#"{"version": 1, "seed": 9007199254740993}"#).unwrap();
+        assert!(
+            seed.message.contains("any whole number"),
+            "{}",
+            seed.message
         );
     }
 

@@ -10,6 +10,7 @@
 
 use std::fmt::Write as _;
 
+use super::layer_geotiff::EXPOSED_BEFORE_START_VALUE;
 use super::{check_grid, check_run, one_line, ExportError, ExportMeta, CAUTION};
 use crate::grid::Grid;
 use crate::layers::STAGE_PALETTE;
@@ -32,7 +33,7 @@ pub fn csv_field(text: &str) -> String {
 }
 
 /// A name as part of a column name: lower case, runs of other characters as one `_`.
-pub(crate) fn column_word(name: &str) -> String {
+pub fn column_word(name: &str) -> String {
     let mut out = String::new();
     for c in name.chars() {
         if c.is_ascii_alphanumeric() {
@@ -132,6 +133,11 @@ pub fn summary_csv(rows: &[RecordedRow], type_names: &[String], meta: &ExportMet
     csv
 }
 
+/// What the cell tables' elevation and exposure columns hold, as `#` lines.
+const STATE_COLUMN_NOTES: &str = "# ground_elevation_m: the ground, under the ice where there is ice; \
+surface_elevation_m: the top of the ice, or the ground where ice-free\r\n\
+# exposure_year: the latest year the cell became ice-free; -1 ice-free at the start; empty under ice\r\n";
+
 /// Columns of the cell tables after the position and year columns.
 fn state_columns(timeline: &Timeline) -> Vec<String> {
     let mut names: Vec<String> = vec![
@@ -169,8 +175,10 @@ fn write_state(out: &mut String, timeline: &Timeline, idx: usize, year: i32, cel
         exposure,
         stage,
     } = cell;
+    // The layer GeoTIFF's coding: under ice has no year (empty here, nodata there).
     let exposure = match exposure {
-        y if y == COVERED || y == crate::timeline::NEVER_COVERED => String::new(),
+        COVERED => String::new(),
+        crate::timeline::NEVER_COVERED => format!("{EXPOSED_BEFORE_START_VALUE}"),
         y => y.to_string(),
     };
     let _ = write!(
@@ -201,8 +209,8 @@ fn write_state(out: &mut String, timeline: &Timeline, idx: usize, year: i32, cel
 /// table neither blocks the page for long nor sits in memory whole. Columns: `col`, `row`,
 /// `easting_m`, `northing_m` (cell centre, in the grid's CRS), `ground_elevation_m` (the
 /// DEM less the starting ice), `ice_thickness_m`, `surface_elevation_m`, `exposure_year`
-/// (the latest year the cell became ice-free, empty while under ice or for ground ice-free
-/// from the start) and, for runs with plants, `stage_code`, `stage`, `cover_<type>_pct` and
+/// (the latest year the cell became ice-free, -1 for ground ice-free at the start, empty
+/// while under ice) and, for runs with plants, `stage_code`, `stage`, `cover_<type>_pct` and
 /// `soil_index`. Cells without a DEM value are left out.
 ///
 /// The stream holds the year's per-cell state (9 bytes a cell), not the timeline, so a front
@@ -238,6 +246,7 @@ impl CellsCsv {
                 .map_or("not stated".to_string(), |c| format!("EPSG:{c}")),
             dem.geometry.cell_size_m
         );
+        head.push_str(STATE_COLUMN_NOTES);
         let mut names: Vec<String> = ["col", "row", "easting_m", "northing_m"]
             .iter()
             .map(|s| s.to_string())
@@ -353,6 +362,7 @@ pub fn cell_history_csv(
         }
     }
     let mut out = preamble(meta, "cell history");
+    out.push_str(STATE_COLUMN_NOTES);
     let mut names: Vec<String> = ["col", "row", "easting_m", "northing_m", "year"]
         .iter()
         .map(|s| s.to_string())

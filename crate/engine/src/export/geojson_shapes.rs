@@ -149,14 +149,13 @@ fn write_feature(
     out.push('}');
 }
 
-/// The collection around `features` (each a feature object), with the provenance, the
-/// caution and the CRS statement as the `forefield` foreign member.
-fn collection(g: &GridGeometry, meta: &ExportMeta, what: &str, features: &[String]) -> String {
-    let target = Target::of(g);
+/// The coordinates the GeoJSON exports of a grid on `g` are written in, as the files'
+/// `forefield` member states it.
+pub fn coordinates_note(g: &GridGeometry) -> String {
     let source_crs = g
         .epsg
         .map_or("not stated".to_string(), |c| format!("EPSG:{c}"));
-    let coordinates = match target {
+    match Target::of(g) {
         Target::Wgs84(zone) => format!(
             "WGS 84 longitude and latitude, degrees, converted from {} / UTM zone {}{}",
             zone.datum,
@@ -166,7 +165,16 @@ fn collection(g: &GridGeometry, meta: &ExportMeta, what: &str, features: &[Strin
         Target::Source => format!(
             "easting and northing in the grid's CRS ({source_crs}), metres, not converted to WGS 84"
         ),
-    };
+    }
+}
+
+/// The collection around `features` (each a feature object), with the provenance, the
+/// caution and the CRS statement as the `forefield` foreign member.
+fn collection(g: &GridGeometry, meta: &ExportMeta, what: &str, features: &[String]) -> String {
+    let source_crs = g
+        .epsg
+        .map_or("not stated".to_string(), |c| format!("EPSG:{c}"));
+    let coordinates = coordinates_note(g);
     let mut out = String::from("{\"type\":\"FeatureCollection\",\"forefield\":{");
     let _ = write!(
         out,

@@ -131,7 +131,7 @@ pub fn layer_geotiff(
     };
     let description = format!(
         "{} at the end of {year}; {}. {CAUTION}",
-        layer_file_stem(kind),
+        layer_file_stem(timeline, kind),
         meta.provenance()
     );
     write_geotiff_described(&grid, options, Some(&description)).map_err(|e| ExportError::Encode {

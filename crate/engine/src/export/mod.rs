@@ -110,9 +110,21 @@ pub enum ExportError {
     },
 }
 
-/// Parses a layer name as the page uses it and checks that the run has it.
+/// Parses a layer name and checks that the run has it. A plant type's cover is
+/// `cover:N` (N from 0 in the scenario's order) or `cover:NAME`, the type's name as written
+/// or as its CSV column writes it (`cover:grasses_and_sedges`).
 pub fn layer_kind(timeline: &Timeline, name: &str) -> Result<LayerKind, ExportError> {
-    let kind = LayerKind::from_name(name).ok_or_else(|| ExportError::UnknownLayer(name.into()))?;
+    let by_name = name.strip_prefix("cover:").and_then(|wanted| {
+        let wanted = wanted.trim();
+        timeline.type_names().iter().position(|type_name| {
+            type_name.eq_ignore_ascii_case(wanted)
+                || csv_tables::column_word(type_name) == csv_tables::column_word(wanted)
+        })
+    });
+    let kind = by_name
+        .map(LayerKind::Cover)
+        .or_else(|| LayerKind::from_name(name))
+        .ok_or_else(|| ExportError::UnknownLayer(name.into()))?;
     check_layer(timeline, kind)?;
     Ok(kind)
 }
@@ -136,14 +148,36 @@ pub fn check_layer(timeline: &Timeline, kind: LayerKind) -> Result<(), ExportErr
 }
 
 /// The layer's name for file names: `ice_thickness`, `exposure_year`, `stage`, `soil`,
-/// `cover_<index>`, `lakes`, `steep_bare`, `glacier_domain`.
-pub fn layer_file_stem(kind: LayerKind) -> String {
+/// `cover_<type name>` (as the CSV columns write it), `lakes`, `steep_bare`, `glacier_domain`.
+pub fn layer_file_stem(timeline: &Timeline, kind: LayerKind) -> String {
+    match kind {
+        LayerKind::Cover(t) => {
+            let words: Vec<String> = timeline
+                .type_names()
+                .iter()
+                .map(|n| csv_tables::column_word(n))
+                .collect();
+            match words.get(t) {
+                // Two names that write alike would overwrite each other's files.
+                Some(word)
+                    if !word.is_empty() && words.iter().filter(|w| *w == word).count() == 1 =>
+                {
+                    format!("cover_{word}")
+                }
+                _ => format!("cover_type_{}", t + 1),
+            }
+        }
+        _ => fixed_layer_stem(kind),
+    }
+}
+
+fn fixed_layer_stem(kind: LayerKind) -> String {
     match kind {
         LayerKind::IceThickness => "ice_thickness".into(),
         LayerKind::ExposureYear => "exposure_year".into(),
         LayerKind::Stage => "stage".into(),
         LayerKind::Soil => "soil".into(),
-        LayerKind::Cover(t) => format!("cover_{t}"),
+        LayerKind::Cover(t) => format!("cover_type_{}", t + 1),
         LayerKind::Lakes => "lakes".into(),
         LayerKind::SteepBare => "steep_bare".into(),
         LayerKind::Domain => "glacier_domain".into(),

@@ -210,7 +210,8 @@ fn panel(
         }
         *cy += LINE_H;
     };
-    let title = if legend.unit.is_empty() {
+    // "Exposure year (year)" would say it twice.
+    let title = if legend.unit.is_empty() || legend.unit == "year" {
         legend.title.clone()
     } else {
         format!("{} ({})", legend.title, legend.unit)
