@@ -106,6 +106,9 @@ before(async () => {
   execFileSync(CLI, ['run', join(dir, 'scenario.json'), '--out', cliOut,
     '--vegetation', join(SAMPLE, 'valley_vegetation.tif'),
     '--years', String(shown.year), '--layers', 'stage', '--formats', 'png,csv'], { stdio: 'pipe' });
+  // A plant type's layer named as the page names it.
+  execFileSync(CLI, ['export', cliOut, '--years', String(shown.year), '--layers', 'cover:grasses and sedges',
+    '--formats', 'tif'], { stdio: 'pipe' });
 });
 after(stopPage);
 
@@ -176,6 +179,26 @@ describe('exports of the layer and year on the map', () => {
     assert.equal(cellTable.rows.length, info.n_cols * info.n_rows - info.nodata_cells);
     assert.ok(cells.bytes.equals(readFileSync(join(cliOut, `cells_${shown.year}.csv`))), 'the cells table differs from the command line');
     assert.match(await session.page.locator('#export-status').innerText(), new RegExp(`Saved cells_${shown.year}\\.csv`));
+    // One exposure-year coding in every file: -1 ice-free at the start, empty under ice, as
+    // the layer GeoTIFF (-1, nodata) and the notes above the header say.
+    assert.ok(cellTable.comments.some((line) => /exposure_year: .*-1 ice-free at the start; empty under ice/.test(line)));
+    assert.ok(cellTable.comments.some((line) => /ground_elevation_m: the ground, under the ice/.test(line)));
+    const codes = new Set(cellTable.rows.map((row) => row.exposure_year));
+    assert.ok(codes.has('-1') && codes.has(''), 'ice-free at the start and under ice both occur in the sample');
+    const iceFreeAtStart = cellTable.rows.find((row) => row.exposure_year === '-1');
+    assert.equal(Number(iceFreeAtStart.ice_thickness_m), 0);
+  });
+
+  test('a plant type\'s layer is named after the type, as on the command line', async () => {
+    const { page } = session;
+    const names = shown.timeline.type_names;
+    const k = names.indexOf('grasses and sedges');
+    assert.ok(k >= 0, names.join(', '));
+    await page.selectOption('#layer', `cover:${k}`);
+    const { name, bytes } = await exportFile('export-tif');
+    assert.equal(name, `layer_cover_grasses_and_sedges_${shown.year}.tif`);
+    assert.ok(bytes.equals(readFileSync(join(cliOut, name))), 'the page and the command line should write the same cover GeoTIFF');
+    await page.selectOption('#layer', 'stage');
   });
 
   test('ice outlines and stage polygons are RFC 7946 GeoJSON whose areas match the grid', async () => {
@@ -193,6 +216,8 @@ describe('exports of the layer and year on the map', () => {
     const area = outlines.features[0].properties.ice_area_m2 / 1e6;
     assert.ok(Math.abs(area - rows[0].ice_area_km2) / rows[0].ice_area_km2 < 0.1, `${area} vs ${rows[0].ice_area_km2} km²`);
 
+    // The sample is in a UTM zone on WGS 84, so its GeoJSON is in longitude and latitude.
+    assert.match(await page.locator('#export-stages').getAttribute('title'), /WGS 84 longitude and latitude, degrees, converted from WGS 84 \/ UTM zone 26N/);
     const stages = await exportFile('export-stages');
     assert.equal(stages.name, `stages_${shown.year}.geojson`);
     const polygons = JSON.parse(stages.bytes.toString('utf8'));

@@ -120,7 +120,8 @@ describe('ice and vegetation inputs', () => {
     await page.click('#error-dismiss');
 
     await page.setInputFiles('#ice-input', tiffFile('negative_ice.tif', { ...grid, elevation: () => -4 }));
-    assert.match(await expectRefused('negative_ice.tif'), /ice thickness: -4 m/);
+    // Says what is out of range and what the model takes.
+    assert.match(await expectRefused('negative_ice.tif'), /a cell holds -4 m, outside the 0 to 5000 m the model takes for ice thickness/);
 
     // The resampled ice grid chosen before is still the one a run would use.
     assert.equal(await page.locator('#fi-ice').innerText(), 'coarse_ice.tif');
