@@ -22,8 +22,8 @@ pub struct GrowingSeasonParams {
     /// Mean growing-season air temperature at sea level with no anomaly, degrees C (0 to 35).
     /// 20 degrees C with 6.5 K/km puts the 6.7 degrees C treeline at 2046 m (SCIENCE-CHECKS 12).
     pub sea_level_temp_c: f64,
-    /// Near-surface lapse rate, K per km (3 to 10); 6.5 is the ISA free-air rate, Alpine
-    /// near-surface rates are 5.4-5.8 (Rolland 2003, J. Climate 16, from memory).
+    /// Near-surface lapse rate, K per km (3 to 10); 6.5 is the ISA free-air rate, mid-latitude
+    /// mountain near-surface rates are 5.4-5.8 (Rolland 2003, J. Climate 16, from memory).
     pub lapse_rate_k_per_km: f64,
 }
 

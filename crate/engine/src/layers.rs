@@ -498,7 +498,7 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
             max: 1.0,
             stops: ramp_stops(SOIL_RAMP, 0.0, 1.0),
             classes: vec![class("under ice", ICE_FLAT)],
-            note: "0 raw till (the bare rock debris a glacier leaves), 1 mature soil.".into(),
+            note: "0 raw till (the unsorted rock debris a glacier leaves), 1 mature soil.".into(),
         },
         LayerKind::Lakes => LayerLegend {
             title: "New lakes (potential), depth".into(),

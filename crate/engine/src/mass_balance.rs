@@ -75,7 +75,7 @@ pub struct MassBalanceParams {
     /// ELA rise per degree of warming, m/K, 0 to 300. Default 120 (see the module notes).
     pub ela_sensitivity_m_per_k: f64,
     /// Balance gradient below the ELA, m water equivalent per year per 100 m, 0.01 to 3.
-    /// Default 0.7, mid-range for Alpine glaciers (0.5-0.9; maritime 0.8-1.5, continental
+    /// Default 0.7, mid-range for mid-latitude mountain glaciers (0.5-0.9; maritime 0.8-1.5, continental
     /// 0.1-0.4; ranges from memory, pattern as in Braithwaite & Raper 2007, Ann. Glaciol. 46).
     pub gradient_below_ela_mwe_per_100m: f64,
     /// Balance gradient above the ELA, same unit and range; `null` uses the gradient below.

@@ -247,14 +247,13 @@ mod tests {
 
     #[test]
     fn degrees_become_utm_and_are_refused_on_other_crs() {
-        let lonlat =
-            r#"{"type":"Polygon","coordinates":[[[7.0,46.0],[7.1,46.0],[7.1,46.1],[7.0,46.0]]]}"#;
-        let swiss = GridGeometry {
-            epsg: Some(2056),
+        let lonlat = r#"{"type":"Polygon","coordinates":[[[-27.0,46.0],[-26.9,46.0],[-26.9,46.1],[-27.0,46.0]]]}"#;
+        let other_crs = GridGeometry {
+            epsg: Some(3857),
             ..grid()
         };
         assert!(matches!(
-            outline_mask(lonlat, "a.geojson", &swiss),
+            outline_mask(lonlat, "a.geojson", &other_crs),
             Err(OutlineError::Degrees { .. })
         ));
         // The same square in UTM 32N and in degrees marks the same cells.

@@ -511,7 +511,7 @@ const PLANT_TRAITS: &[(&str, &str, FieldKind, &str)] = &[
         "min_soil_index",
         "Minimum soil index",
         FieldKind::Number,
-        "Soil development needed to establish: 0 raw till (the bare rock debris a glacier leaves), 1 mature soil.",
+        "Soil development needed to establish: 0 raw till (the unsorted rock debris a glacier leaves), 1 mature soil.",
     ),
     (
         "min_growing_season_temp_c",
