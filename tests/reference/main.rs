@@ -7,6 +7,7 @@ mod export_geotiff;
 mod export_png;
 mod geotiff_read;
 mod ice_conservation;
+mod ice_downscale;
 mod ice_halfar;
 mod ice_mass_balance;
 mod ice_outline;

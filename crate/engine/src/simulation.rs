@@ -8,8 +8,9 @@
 //! plant cells costs 1/256 of running the ice at 25 m. Transfer is conservative both ways:
 //! a block's ice thickness is the block's ice volume over the block area (missing cells count
 //! as ice-free), and back on the fine grid each block's volume is spread over its valid cells
-//! in proportion to a bilinear interpolation of the ice-grid thickness, so margins are not
-//! blocky and every block keeps exactly its volume (common practice, no source).
+//! as the bilinear ice-grid surface less the fine bed, floored at zero, with the block's
+//! surface shifted up or down so it keeps exactly its volume: margins follow the fine ground
+//! (common practice, no source).
 //!
 //! Conventions. The grids describe the end of `start_year`. `step_year` simulates the next
 //! calendar year Y with the anomaly dT(Y) and returns the summary of the state at its end; a
@@ -176,8 +177,10 @@ pub struct IceSimulation {
     exposure: ExposureTracker,
     summary: Vec<YearSummary>,
     ice_box: Option<CellBox>,
-    /// Scratch for one block's interpolation weights.
+    /// Scratch for one block's surface-less-bed values and their sorted copy.
     block_weights: Vec<f64>,
+    /// The input grid's bed, for placing ice within a block (nodata cells hold 0).
+    fine_bed_m: Vec<f32>,
     /// Valid fine cells of each ice-grid block.
     block_valid: Vec<usize>,
     /// First year (the start year for the relaxed start) the ice touched the grid edge.
@@ -384,7 +387,13 @@ impl IceSimulation {
             ice_thickness_m: vec![0.0; n_cols * n_rows],
             exposure: ExposureTracker::new(&[]),
             summary: Vec::with_capacity(scenario.n_years as usize + 1),
-            block_weights: vec![0.0; block * block],
+            block_weights: vec![0.0; 2 * block * block],
+            fine_bed_m: bed_m
+                .values
+                .iter()
+                .zip(&bed_m.nodata)
+                .map(|(&z, &missing)| if missing { 0.0 } else { z })
+                .collect(),
             block_valid: n_valid,
             edge_year: None,
             treeline_note: String::new(),
@@ -615,18 +624,19 @@ impl IceSimulation {
         Some(row)
     }
 
-    /// Spreads each ice-grid block's volume over its valid input cells, weighted by a
-    /// bilinear interpolation of the ice-grid thickness between cell centres.
+    /// Spreads each ice-grid block's volume over its valid input cells as the bilinear
+    /// ice-grid surface less the fine bed, floored at zero, with the surface raised or lowered
+    /// by one amount per block so the block keeps exactly its volume. A margin on a valley wall
+    /// then falls where the surface meets the fine ground, not a block off.
     fn downscale(&mut self, ice_box: CellBox) {
         let (n_cols, n_rows) = (self.geometry.n_cols, self.geometry.n_rows);
         let k = self.block;
         let (ice_cols, ice_rows) = (self.ice_cols, self.ice_rows);
         let ice = &self.ice_grid_thickness_m;
+        let ice_bed = self.stepper.bed_m();
         let weights = &mut self.block_weights;
         for ice_row in ice_box.row_min..=ice_box.row_max {
             let rows = ice_row * k..((ice_row + 1) * k).min(n_rows);
-            let row_above = ice_row.saturating_sub(1);
-            let row_below = (ice_row + 1).min(ice_rows - 1);
             for ice_col in ice_box.col_min..=ice_box.col_max {
                 let cols = ice_col * k..((ice_col + 1) * k).min(n_cols);
                 let block_volume = ice[ice_row * ice_cols + ice_col] * (k * k) as f64;
@@ -637,50 +647,39 @@ impl IceSimulation {
                     }
                     continue;
                 }
-                let col_left = ice_col.saturating_sub(1);
-                let col_right = (ice_col + 1).min(ice_cols - 1);
-                let at = |r: usize, c: usize| ice[r * ice_cols + c];
-                let (mut weight_sum, mut n_valid) = (0.0, 0usize);
+                let near = neighbour_surfaces(ice, ice_bed, ice_cols, ice_rows, ice_row, ice_col);
+                // Interpolated surface less fine bed in the first k*k slots; the valid ones,
+                // sorted, in the rest.
+                let (above_bed, sorted) = weights.split_at_mut(k * k);
+                let mut n_valid = 0usize;
                 for (i, row) in rows.clone().enumerate() {
                     // Offset of the fine centre from the block centre, in ice cells.
                     let fy = (i as f64 + 0.5) / k as f64 - 0.5;
-                    let (r_other, wy) = if fy < 0.0 {
-                        (row_above, -fy)
-                    } else {
-                        (row_below, fy)
-                    };
+                    let (r_other, wy) = if fy < 0.0 { (0, -fy) } else { (2, fy) };
                     for (j, col) in cols.clone().enumerate() {
+                        let idx = row * n_cols + col;
+                        if !self.valid[idx] {
+                            above_bed[i * k + j] = f64::NEG_INFINITY;
+                            continue;
+                        }
                         let fx = (j as f64 + 0.5) / k as f64 - 0.5;
-                        let (c_other, wx) = if fx < 0.0 {
-                            (col_left, -fx)
-                        } else {
-                            (col_right, fx)
-                        };
-                        let near = at(ice_row, ice_col) * (1.0 - wx) + at(ice_row, c_other) * wx;
-                        let far = at(r_other, ice_col) * (1.0 - wx) + at(r_other, c_other) * wx;
-                        let w = if self.valid[row * n_cols + col] {
-                            near * (1.0 - wy) + far * wy
-                        } else {
-                            0.0
-                        };
-                        weights[i * k + j] = w;
-                        weight_sum += w;
-                        n_valid += usize::from(self.valid[row * n_cols + col]);
+                        let (c_other, wx) = if fx < 0.0 { (0, -fx) } else { (2, fx) };
+                        let surface = near[1][1] * (1.0 - wx) * (1.0 - wy)
+                            + near[1][c_other] * wx * (1.0 - wy)
+                            + near[r_other][1] * (1.0 - wx) * wy
+                            + near[r_other][c_other] * wx * wy;
+                        let d = surface - f64::from(self.fine_bed_m[idx]);
+                        above_bed[i * k + j] = d;
+                        sorted[n_valid] = d;
+                        n_valid += 1;
                     }
                 }
+                let shift = volume_keeping_shift(&mut sorted[..n_valid], block_volume);
                 for (i, row) in rows.clone().enumerate() {
                     for (j, col) in cols.clone().enumerate() {
                         let idx = row * n_cols + col;
-                        // The block's own centre weighs at least 1/4, so weight_sum > 0 when
-                        // any cell is valid; the uniform case guards round-off.
-                        let h = if !self.valid[idx] {
-                            0.0
-                        } else if weight_sum > 0.0 {
-                            weights[i * k + j] * block_volume / weight_sum
-                        } else {
-                            block_volume / n_valid as f64
-                        };
-                        self.ice_thickness_m[idx] = h as f32;
+                        let h = positive_part(above_bed[i * k + j] + shift);
+                        self.ice_thickness_m[idx] = if self.valid[idx] { h as f32 } else { 0.0 };
                     }
                 }
             }
@@ -880,6 +879,58 @@ fn treeline_note(scenario: &Scenario, start_ela_m: f64) -> String {
 /// Seasonal mean root-zone temperature at climatic treelines, C (Körner & Paulsen 2004), for a
 /// scenario without tree types.
 const TREELINE_TEMP_C: f64 = 6.7;
+
+/// The ice surface on the 3 x 3 ice cells around an ice-covered one, for interpolation. An
+/// ice-free neighbour's ground is not the ice surface's continuation: its value is carried on
+/// from the opposite side (or held level when both sides are ice-free), so a planar surface
+/// stays planar up to the margin; beyond the grid edge the cell's own value holds.
+fn neighbour_surfaces(
+    thickness: &[f64],
+    bed: &[f64],
+    n_cols: usize,
+    n_rows: usize,
+    row: usize,
+    col: usize,
+) -> [[f64; 3]; 3] {
+    let rows = [row.saturating_sub(1), row, (row + 1).min(n_rows - 1)];
+    let cols = [col.saturating_sub(1), col, (col + 1).min(n_cols - 1)];
+    let at = |i: usize, j: usize| {
+        let idx = rows[i] * n_cols + cols[j];
+        (thickness[idx] > 0.0).then(|| bed[idx] + thickness[idx])
+    };
+    let centre = bed[row * n_cols + col] + thickness[row * n_cols + col];
+    let along = |a: Option<f64>, opposite: Option<f64>| {
+        a.unwrap_or_else(|| opposite.map_or(centre, |o| 2.0 * centre - o))
+    };
+    let (north, south) = (at(0, 1), at(2, 1));
+    let (west, east) = (at(1, 0), at(1, 2));
+    let mut s = [[centre; 3]; 3];
+    s[0][1] = along(north, south);
+    s[2][1] = along(south, north);
+    s[1][0] = along(west, east);
+    s[1][2] = along(east, west);
+    for i in [0, 2] {
+        for j in [0, 2] {
+            s[i][j] = at(i, j).unwrap_or(s[i][1] + s[1][j] - centre);
+        }
+    }
+    s
+}
+
+/// The amount c for which the sum of max(0, d + c) over `d` equals `volume` (> 0), in units
+/// of one cell: the level a block's surface must move to hold its volume. Sorts `d`.
+fn volume_keeping_shift(d: &mut [f64], volume: f64) -> f64 {
+    d.sort_unstable_by(|a, b| b.total_cmp(a));
+    let mut top_sum = 0.0;
+    for j in 0..d.len() {
+        top_sum += d[j];
+        let shift = (volume - top_sum) / (j + 1) as f64;
+        if d.get(j + 1).is_none_or(|&next| next + shift <= 0.0) {
+            return shift;
+        }
+    }
+    0.0
+}
 
 fn union(a: CellBox, b: CellBox) -> CellBox {
     CellBox {
