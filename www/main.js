@@ -701,7 +701,7 @@ async function boot() {
           years.push(run.year());
           thickness.push(new Float32Array(wasm.memory.buffer, run.iceThicknessPtr(), run.nCells())[idx]);
         }
-        const exposed = new Int32Array(wasm.memory.buffer, run.yearExposedPtr(), run.nCells())[idx];
+        const exposed = new Int32Array(wasm.memory.buffer, run.exposureYearPtr(), run.nCells())[idx];
         return { years, ice_thickness_m: thickness, exposure_year: exposed };
       } finally {
         run.free();

@@ -10,10 +10,12 @@
 import { after, before, describe, test } from 'node:test';
 import assert from 'node:assert/strict';
 import { execFileSync } from 'node:child_process';
-import { dirname, resolve } from 'node:path';
+import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { writeFloat32GeoTiff, writeGrey16Png } from './fixture_writers.mjs';
-import { chooseFiles, expectLoaded, loadCount, session, startPage, stopPage, typeInto } from './harness.mjs';
+import {
+  ARTIFACTS, chooseFiles, expectLoaded, loadCount, session, startPage, stopPage, typeInto,
+} from './harness.mjs';
 
 const HERE = dirname(fileURLToPath(import.meta.url));
 const CLI = process.env.FOREFIELD_CLI ?? resolve(HERE, '..', '..', 'target', 'release', 'forefield');
@@ -79,6 +81,10 @@ describe('names and messages', () => {
     assert.deepEqual(paths.sort(), ['flow.ice_cell_size_m', 'flow.ice_density_kg_m3', 'flow.rate_factor_pa3_s',
       'flow.sliding_pa3_m2_s', 'flow.time_step_fraction', 'vegetation.dispersal_cell_size_m']);
     assert.match(await page.locator('#field-flow-rate_factor_pa3_s-hint').textContent(), /rate factor A of Glen's flow law/);
+    await advanced.locator('summary').click();
+    await advanced.scrollIntoViewIfNeeded();
+    await page.screenshot({ path: join(ARTIFACTS, 'form-advanced.png') });
+    await advanced.locator('summary').click();
   });
 
   test('a PNG height map can be viewed, and the run status says runs need a GeoTIFF', async () => {

@@ -846,8 +846,8 @@ impl IceRun {
     }
 
     /// Address of the `i32` exposure-year layer, `nCells()` long.
-    #[wasm_bindgen(js_name = yearExposedPtr)]
-    pub fn year_exposed_ptr(&self) -> *const i32 {
+    #[wasm_bindgen(js_name = exposureYearPtr)]
+    pub fn exposure_year_ptr(&self) -> *const i32 {
         self.simulation.year_exposed().as_ptr()
     }
 }
