@@ -1,5 +1,5 @@
 // A planner's own glacier in headless Chromium: a real-shaped DEM in UTM (a general-purpose
-// library's bundled terrain, lifted to alpine heights; tests/fixtures/ridge_valley.md) with the
+// library's bundled terrain, lifted to high-mountain heights; tests/fixtures/ridge_valley.md) with the
 // glacier outline from an inventory in longitude/latitude, accepted and placed where the same
 // outline in UTM lands; the run shows its calibrated ELA, relaxation and glacier domain in the
 // run status and under the ELA field, the summary CSV states them, and the domain is a layer
