@@ -23,4 +23,5 @@ mod veg_migration;
 mod veg_model;
 mod veg_scenario_disturbance;
 mod veg_spread;
+mod veg_volcanic_pulse;
 mod zone_timeline;
