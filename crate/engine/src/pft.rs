@@ -1,7 +1,7 @@
 //! Plant functional types: the traits of each group of species the colonisation model follows,
 //! with defaults taken from published ranges (sources beside each default).
 //!
-//! Five defaults stand for the groups of an Alpine glacier-forefield chronosequence (Burga et
+//! Five defaults stand for the groups of a continental glacier-forefield chronosequence (Burga et
 //! al. 2010, Flora 205:561-576) and of a maritime one (Chapin, Walker, Fastie & Sharman 1994,
 //! Ecol. Monogr. 64(2):149-175): pioneer mosses, lichens and plumed herbs; grasses and sedges;
 //! low shrubs with nitrogen fixers; light-seeded broadleaf pioneer trees; late-successional

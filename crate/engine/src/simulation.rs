@@ -871,7 +871,7 @@ fn treeline_note(scenario: &Scenario, start_ela_m: f64) -> String {
         "the treeline lies below the ELA"
     };
     format!(
-        "growing-season mean {at_ela_c:.1} C at the ELA; the {tree_limit_c} C treeline \
+        "growing-season mean {at_ela_c:.1} °C at the ELA; the {tree_limit_c} °C treeline \
          (a root-zone temperature, here applied to air) at {treeline_m:.0} m: {verdict}"
     )
 }
