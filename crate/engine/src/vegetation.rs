@@ -58,6 +58,24 @@ pub struct VegetationParams {
     /// 1000). Coarser is faster and blurs seed rain below this scale; the default 50 m
     /// keeps the error against a direct convolution below 0.5 % (reference checks).
     pub dispersal_cell_size_m: f64,
+    /// What the seed rain assumes beyond the grid edge.
+    pub seed_edge: SeedEdge,
+}
+
+/// What lies beyond the grid edge for seed.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SeedEdge {
+    /// The land beyond the edge mirrors the land inside it: seed that would leave lands at the
+    /// mirror point, which for a symmetric kernel is the same as seed arriving from mirrored
+    /// sources outside. Long-distance jumps off the grid are still lost. The default: a DEM's
+    /// edge is where it was clipped, not a barrier, and without it a tightly clipped
+    /// forefield loses the seed of forest just outside (reference check `veg_seed_edge`).
+    #[default]
+    Mirrored,
+    /// Seed leaving the grid is lost and none arrives from beyond it (an island, or a check
+    /// against an unbounded closed form).
+    Lost,
 }
 
 impl Default for VegetationParams {
@@ -69,6 +87,7 @@ impl Default for VegetationParams {
             stages: StageThresholds::default(),
             seed_bank: SeedBankParams::default(),
             dispersal_cell_size_m: 50.0,
+            seed_edge: SeedEdge::default(),
         }
     }
 }
@@ -358,7 +377,10 @@ impl VegetationModel {
                         n_cols,
                         n_rows,
                         base_factor,
-                        Boundary::Absorbing,
+                        match params.seed_edge {
+                            SeedEdge::Mirrored => Boundary::Reflecting,
+                            SeedEdge::Lost => Boundary::Absorbing,
+                        },
                     ),
                 })
             })
@@ -1055,6 +1077,9 @@ impl VegetationModel {
             let distance =
                 setup.long_distance_kernel.sample_distance_m(&mut self.rng) / self.cell_size_m;
             let angle = std::f64::consts::TAU * uniform_open(&mut self.rng);
+            // A jump off the grid is lost whatever the seed edge: folded back, kilometre
+            // jumps on a grid a few kilometres across would return the forefield's own
+            // colonists' seed as if it came from the land beyond.
             let x = col as f64 + 0.5 + distance * libm::cos(angle);
             let y = row as f64 + 0.5 + distance * libm::sin(angle);
             if x >= 0.0 && y >= 0.0 && x < n_cols as f64 && y < self.n_rows as f64 {

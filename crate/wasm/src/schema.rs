@@ -11,6 +11,7 @@ use forefield_engine::dispersal::KernelFamily;
 use forefield_engine::mass_balance::DomainRule;
 use forefield_engine::pft::GrowthForm;
 use forefield_engine::scenario::{Scenario, ScenarioError};
+use forefield_engine::vegetation::SeedEdge;
 use serde::Serialize;
 use serde_json::Value;
 
@@ -310,6 +311,14 @@ const FIELDS: &[(&str, &str, &str, FieldKind, bool, &str)] = &[
         "Cooling with height; with the sea-level value it sets each type's upper limit.",
     ),
     (
+        "vegetation.seed_edge",
+        "plants",
+        "Seed at the grid edge",
+        FieldKind::Choice,
+        false,
+        "What lies beyond the edge for seed. Mirrored: the land continues as it is inside the edge, so forest cut off by a tight clip still seeds the forefield. Lost: seed leaving the grid is gone and none comes in. Long-distance jumps off the grid are lost either way.",
+    ),
+    (
         "vegetation.dispersal_cell_size_m",
         "advanced",
         "Dispersal cell size",
@@ -583,21 +592,33 @@ fn growth_form_label(form: GrowthForm) -> &'static str {
 /// The values of a choice field outside the plant table.
 fn field_options(path: &str) -> Vec<ChoiceOption> {
     match path {
-        "mass_balance.domain" => [
+        "mass_balance.domain" => options([
             (
                 DomainRule::Drainage,
                 "glacier and the ground touching or draining into it",
             ),
             (DomainRule::WholeGrid, "whole grid"),
-        ]
-        .into_iter()
-        .map(|(rule, label)| ChoiceOption {
-            value: serde_json::to_value(rule).unwrap_or(Value::Null),
-            label,
-        })
-        .collect(),
+        ]),
+        "vegetation.seed_edge" => options([
+            (
+                SeedEdge::Mirrored,
+                "mirrored: the land continues beyond the edge",
+            ),
+            (SeedEdge::Lost, "lost: nothing beyond the edge"),
+        ]),
         _ => Vec::new(),
     }
+}
+
+/// Choice options from engine values, written as the scenario JSON writes them.
+fn options<T: Serialize>(values: impl IntoIterator<Item = (T, &'static str)>) -> Vec<ChoiceOption> {
+    values
+        .into_iter()
+        .map(|(value, label)| ChoiceOption {
+            value: serde_json::to_value(value).unwrap_or(Value::Null),
+            label,
+        })
+        .collect()
 }
 
 /// The values of a choice trait, written as the engine reads them.
