@@ -9,9 +9,10 @@
 //! cover threshold) disagrees with the surface-minus-bed truth lies within one fine cell of
 //! the true margin, and each block keeps its volume.
 
-use forefield_engine::grid::{Grid, GridGeometry};
+use forefield_engine::grid::Grid;
 use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::IceSimulation;
+use forefield_reference_tests::utm_geometry;
 
 const N: usize = 96;
 const DX: f64 = 25.0;
@@ -25,14 +26,7 @@ fn surface_minus_bed(row: usize, col: usize) -> f64 {
 
 #[test]
 fn margin_follows_the_fine_ground_within_one_cell() {
-    let geometry = GridGeometry {
-        n_cols: N,
-        n_rows: N,
-        cell_size_m: DX,
-        west_m: 500_000.0,
-        north_m: 5_000_000.0,
-        epsg: Some(32632),
-    };
+    let geometry = utm_geometry(N, N, DX);
     let mut bed = Vec::with_capacity(N * N);
     let mut ice = Vec::with_capacity(N * N);
     for row in 0..N {

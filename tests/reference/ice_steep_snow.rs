@@ -5,9 +5,10 @@
 //! years, while without the redistribution it holds 20 years of snowfall; and the total mass
 //! gained is the same with and without it, to round-off (the transport only moves snow).
 
-use forefield_engine::grid::{Grid, GridGeometry};
+use forefield_engine::grid::Grid;
 use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::IceSimulation;
+use forefield_reference_tests::utm_geometry;
 
 const N: usize = 40;
 const DX: f64 = 100.0;
@@ -16,14 +17,7 @@ const WALL_ROWS: usize = 12;
 /// Bed and starting ice: the wall rises northwards over rows 0-11, the floor below it holds
 /// 30 m of ice from row 14 down.
 fn cirque() -> (Grid, Grid) {
-    let geometry = GridGeometry {
-        n_cols: N,
-        n_rows: N,
-        cell_size_m: DX,
-        west_m: 500_000.0,
-        north_m: 5_000_000.0,
-        epsg: Some(32632),
-    };
+    let geometry = utm_geometry(N, N, DX);
     let wall = f64::tan(60f64.to_radians());
     let floor = f64::tan(5f64.to_radians());
     let mut bed = Vec::with_capacity(N * N);

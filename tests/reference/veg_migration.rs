@@ -7,10 +7,10 @@
 //! these into the window 50-1000 m a^-1, pioneer trees faster than late-successional ones.
 
 use forefield_engine::exposure::ICE_FREE_AT_START;
-use forefield_engine::grid::GridGeometry;
 use forefield_engine::pft::GrowthForm;
 use forefield_engine::sample::vegetation_code;
 use forefield_engine::vegetation::{VegetationModel, VegetationParams};
+use forefield_reference_tests::local_geometry;
 
 const CELL_M: f64 = 25.0;
 
@@ -37,17 +37,10 @@ fn front_m(m: &VegetationModel, t: usize, n_cols: usize, rows: std::ops::Range<u
 fn tree_fronts_advance_at_holocene_rates_pioneers_first() {
     // West: 40 columns of mature forest as the seed source; east: meadow on ground at 1000 m
     // (13.5 degrees C growing season, well above the treeline), flat, soil already formed
-    // enough for every tree type. Wide enough north-south that seed lost over the edges
-    // does not slow the central rows.
+    // enough for every tree type. Wide enough north-south that the edges do not matter to
+    // the central rows.
     let (n_cols, n_rows) = (1200, 120);
-    let g = GridGeometry {
-        n_cols,
-        n_rows,
-        cell_size_m: CELL_M,
-        west_m: 0.0,
-        north_m: 0.0,
-        epsg: None,
-    };
+    let g = local_geometry(n_cols, n_rows, CELL_M);
     let n = g.n_cells();
     let elevation = vec![1000.0f32; n];
     let slope = vec![0.0f32; n];

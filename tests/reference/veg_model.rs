@@ -10,18 +10,12 @@ use forefield_engine::grid::GridGeometry;
 use forefield_engine::pft::GrowthForm;
 use forefield_engine::sample::vegetation_code;
 use forefield_engine::vegetation::{VegetationModel, VegetationParams};
+use forefield_reference_tests::local_geometry;
 
 const CELL_M: f64 = 25.0;
 
 fn geometry(n_cols: usize, n_rows: usize) -> GridGeometry {
-    GridGeometry {
-        n_cols,
-        n_rows,
-        cell_size_m: CELL_M,
-        west_m: 0.0,
-        north_m: 0.0,
-        epsg: None,
-    }
+    local_geometry(n_cols, n_rows, CELL_M)
 }
 
 fn model(

@@ -8,9 +8,9 @@
 //! seed lost at the edge 14 % short. The check: mirrored within 10 %, lost short by more than
 //! one and a half times that.
 
-use forefield_engine::grid::GridGeometry;
 use forefield_engine::sample::vegetation_code;
 use forefield_engine::vegetation::{SeedEdge, VegetationModel, VegetationParams};
+use forefield_reference_tests::local_geometry;
 
 const CELL_M: f64 = 25.0;
 /// The wide grid: forest in columns 0-79, ice in 80-159; 120 rows.
@@ -31,14 +31,7 @@ fn forefield_cover(
     seed: u64,
 ) -> f64 {
     let (n_cols, n_rows) = size;
-    let geometry = GridGeometry {
-        n_cols,
-        n_rows,
-        cell_size_m: CELL_M,
-        west_m: 0.0,
-        north_m: 0.0,
-        epsg: None,
-    };
+    let geometry = local_geometry(n_cols, n_rows, CELL_M);
     let n = n_cols * n_rows;
     let forest = |i: usize| col0 + i % n_cols < FOREST_COLS;
     let stages: Vec<u8> = (0..n)
