@@ -920,6 +920,14 @@ fn neighbour_surfaces(
 /// The amount c for which the sum of max(0, d + c) over `d` equals `volume` (> 0), in units
 /// of one cell: the level a block's surface must move to hold its volume. Sorts `d`.
 fn volume_keeping_shift(d: &mut [f64], volume: f64) -> f64 {
+    // Inside the ice every cell stays wet and no sort is needed.
+    let (sum, min) = d
+        .iter()
+        .fold((0.0, f64::INFINITY), |(s, m), &x| (s + x, m.min(x)));
+    let all_wet = (volume - sum) / d.len() as f64;
+    if min + all_wet > 0.0 {
+        return all_wet;
+    }
     d.sort_unstable_by(|a, b| b.total_cmp(a));
     let mut top_sum = 0.0;
     for j in 0..d.len() {
