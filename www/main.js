@@ -272,8 +272,12 @@ async function boot() {
     showHistoryYear(timeBar.year());
   }
 
+  /** Forgets the run shown: another terrain makes its years, notes and exports stale. */
   function clearRunResult() {
     timelineInfo = null;
+    timeBar.reset();
+    showRunNotes(null);
+    exportPanel?.say('');
     summary = null;
     summaryCsv = null;
     selected = null;

@@ -23,6 +23,15 @@ export class TimeBar {
     this.show(year);
   }
 
+  /** Back to the state before any run: no years, controls off. */
+  reset() {
+    this.pause();
+    this.slider.min = this.slider.max = this.slider.value = '0';
+    for (const control of [this.slider, this.back, this.forward, this.play]) control.disabled = true;
+    this.label.textContent = '–';
+    this.slider.removeAttribute('aria-valuetext');
+  }
+
   year() {
     return Number(this.slider.value);
   }
