@@ -54,6 +54,34 @@ impl Outline {
     }
 }
 
+/// The length of the first position with fewer than two numbers, if any.
+fn short_position(geojson: &GeoJson) -> Option<usize> {
+    fn in_geometry(geometry: &geojson::Geometry) -> Option<usize> {
+        use geojson::GeometryValue as V;
+        let short = |p: &geojson::Position| (p.len() < 2).then_some(p.len());
+        let in_ring = |ring: &Vec<geojson::Position>| ring.iter().find_map(short);
+        match &geometry.value {
+            V::Point { coordinates } => short(coordinates),
+            V::MultiPoint { coordinates } | V::LineString { coordinates } => in_ring(coordinates),
+            V::MultiLineString { coordinates } | V::Polygon { coordinates } => {
+                coordinates.iter().find_map(in_ring)
+            }
+            V::MultiPolygon { coordinates } => coordinates
+                .iter()
+                .find_map(|polygon| polygon.iter().find_map(in_ring)),
+            V::GeometryCollection { geometries } => geometries.iter().find_map(in_geometry),
+        }
+    }
+    match geojson {
+        GeoJson::Geometry(g) => in_geometry(g),
+        GeoJson::Feature(f) => f.geometry.as_ref().and_then(in_geometry),
+        GeoJson::FeatureCollection(c) => c
+            .features
+            .iter()
+            .find_map(|f| f.geometry.as_ref().and_then(in_geometry)),
+    }
+}
+
 /// Parses GeoJSON text (a Geometry, Feature or FeatureCollection) and keeps its polygons.
 pub fn read_outline(text: &str, file: &str, grid: &GridGeometry) -> Result<Outline, OutlineError> {
     let not_json = |reason: String| OutlineError::NotGeoJson {
@@ -71,6 +99,12 @@ pub fn read_outline(text: &str, file: &str, grid: &GridGeometry) -> Result<Outli
                 });
             }
         }
+    }
+    // The conversion below indexes x and y without looking: a shorter position would panic.
+    if let Some(found) = short_position(&geojson) {
+        return Err(not_json(format!(
+            "a position has {found} number(s); RFC 7946 positions need at least two"
+        )));
     }
     let collection: GeometryCollection<f64> =
         GeometryCollection::try_from(&geojson).map_err(|e| not_json(e.to_string()))?;
@@ -243,6 +277,20 @@ mod tests {
         // Row 2 (northing centre 2075) from column 2 (easting centre 1025) to column 7.
         assert!(mask[2 * 10 + 2] && mask[2 * 10 + 7] && !mask[2 * 10 + 1] && !mask[2 * 10 + 8]);
         assert!(!mask[5 * 10 + 4], "the hole is outside");
+    }
+
+    #[test]
+    fn a_position_of_one_number_is_refused_not_a_panic() {
+        // Found by the random-bytes property test (tests/parsers_survive_bad_bytes.rs).
+        let text =
+            r#"{"type":"Polygon","coordinates":[[[1020,2020],[1080],[1080,2080],[1020,2020]]]}"#;
+        match outline_mask(text, "short.geojson", &grid()) {
+            Err(OutlineError::NotGeoJson { file, reason }) => {
+                assert_eq!(file, "short.geojson");
+                assert!(reason.contains("1 number(s)"), "{reason}");
+            }
+            other => panic!("expected a refusal, got {other:?}"),
+        }
     }
 
     #[test]
