@@ -186,26 +186,36 @@ pub fn rasterise(
     file: &str,
 ) -> Result<Vec<bool>, OutlineError> {
     let mut mask = vec![false; grid.n_cells()];
-    let mut crossings: Vec<f64> = Vec::new();
+    // Crossings per scanline, each edge visiting only the rows it spans, so a polygon of a
+    // million vertices costs its edges plus its crossings, not edges times rows.
+    let mut crossings: Vec<Vec<f64>> = vec![Vec::new(); grid.n_rows];
+    let row_of = |y: f64| (grid.north_m - y) / grid.cell_size_m - 0.5;
     for polygon in &outline.polygons {
+        for row_crossings in &mut crossings {
+            row_crossings.clear();
+        }
         let rings = std::iter::once(polygon.exterior()).chain(polygon.interiors());
-        let edges: Vec<((f64, f64), (f64, f64))> = rings
-            .flat_map(|ring| {
-                ring.lines()
-                    .map(|l| ((l.start.x, l.start.y), (l.end.x, l.end.y)))
-            })
-            .collect();
-        for row in 0..grid.n_rows {
-            let y = grid.north_m - (row as f64 + 0.5) * grid.cell_size_m;
-            crossings.clear();
-            for &((x0, y0), (x1, y1)) in &edges {
+        for line in rings.flat_map(|ring| ring.lines()) {
+            let ((x0, y0), (x1, y1)) = ((line.start.x, line.start.y), (line.end.x, line.end.y));
+            // Candidate rows, one wider each way; the exact test below decides.
+            let (a, b) = (row_of(y0.max(y1)), row_of(y0.min(y1)));
+            if !(a.is_finite() && b.is_finite()) || b < -1.0 || a > grid.n_rows as f64 {
+                continue;
+            }
+            let first = (a.floor() - 1.0).max(0.0) as usize;
+            let last = ((b.ceil() + 1.0).max(0.0) as usize).min(grid.n_rows - 1);
+            for (row, row_crossings) in crossings.iter_mut().enumerate().take(last + 1).skip(first)
+            {
+                let y = grid.north_m - (row as f64 + 0.5) * grid.cell_size_m;
                 // Half-open rule: a vertex exactly on the scanline counts once.
                 if (y0 <= y) != (y1 <= y) {
-                    crossings.push(x0 + (y - y0) * (x1 - x0) / (y1 - y0));
+                    row_crossings.push(x0 + (y - y0) * (x1 - x0) / (y1 - y0));
                 }
             }
-            crossings.sort_by(f64::total_cmp);
-            for span in crossings.chunks_exact(2) {
+        }
+        for (row, row_crossings) in crossings.iter_mut().enumerate() {
+            row_crossings.sort_by(f64::total_cmp);
+            for span in row_crossings.chunks_exact(2) {
                 // Columns whose centre x = west + (c + 0.5) size lies in [span0, span1).
                 let first = ((span[0] - grid.west_m) / grid.cell_size_m - 0.5)
                     .ceil()
