@@ -459,12 +459,22 @@ async function boot() {
     const created = new Worker('./worker.js', { type: 'module' });
     created.onmessage = (event) => onWorkerMessage(event.data);
     created.onerror = (event) => {
+      retireWorker();
       setRunning(false);
-      setRunState('failed', 'The run could not start.');
+      setRunState('failed', `The run stopped. ${resultStays()}`);
       showError(`The simulation worker failed: ${event.message ?? 'unknown error'}.`, 'Run failed');
     };
     return created;
   }
+
+  /** After a failure the worker's engine may be out of memory or stopped mid-step: the next
+   *  run gets a fresh one, and the page's own terrain, scenario and last run are untouched. */
+  function retireWorker() {
+    worker?.terminate();
+    worker = null;
+  }
+
+  const resultStays = () => (timelineInfo ? 'The previous result stays.' : '');
 
   function onWorkerMessage(message) {
     if (message.type === 'started') {
@@ -518,10 +528,11 @@ async function boot() {
       zonePanel.refresh();
     } else if (message.type === 'cancelled') {
       setRunning(false);
-      setRunState('cancelled', `Cancelled at ${message.year}. ${timelineInfo ? 'The previous result stays.' : ''}`);
+      setRunState('cancelled', `Cancelled at ${message.year}. ${resultStays()}`);
     } else if (message.type === 'failed') {
+      retireWorker();
       setRunning(false);
-      setRunState('failed', 'The run failed; see the message.');
+      setRunState('failed', `The run failed; see the message. ${resultStays()}`);
       const names = lastRun ? ` (${lastRun.surface.name}, ${lastRun.ice.name})` : '';
       showError(`${message.message}${names}`, 'Run failed');
     }
