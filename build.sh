@@ -4,6 +4,7 @@
 #   ./build.sh test    formatting, lints (native and wasm), all Rust tests, wasm build, browser tests
 #   ./build.sh sample  regenerate the committed demo grids in sample-grids/
 #   ./build.sh bench   native and in-browser benchmarks, printed as JSON lines
+#   ./build.sh fuzz [SECONDS]  each cargo-fuzz target for SECONDS (default 60), nightly
 set -euo pipefail
 
 cd "$(dirname "$0")"
@@ -155,13 +156,48 @@ cmd_bench() {
     (cd tests/browser && NATIVE_BENCH="$native" FOREFIELD_URL="http://127.0.0.1:$port/" node bench.mjs)
 }
 
+FUZZ_TARGETS=(geotiff heightmap_png geojson scenario run_file)
+
+# Seeds from the fixtures and the sample, plus a small recorded run, so libFuzzer starts from
+# real files; crashes land in crate/fuzz/artifacts/TARGET/ and become regression tests.
+fuzz_corpus() {
+    local corpus=crate/fuzz/corpus tiny
+    mkdir -p "$corpus"/{geotiff,heightmap_png,geojson,scenario,run_file}
+    cp tests/fixtures/gdal_*.tif "$corpus/geotiff/"
+    cp sample-grids/*.geojson tests/fixtures/*.geojson "$corpus/geojson/"
+    cp sample-grids/*.json "$corpus/scenario/"
+    tiny="$(mktemp -d)"
+    "$TARGET_DIR"/release/forefield sample --size 24 --out "$tiny" >/dev/null
+    sed 's/"n_years": [0-9]*/"n_years": 3/; s/"output_years": \[[^]]*\]/"output_years": []/' \
+        sample-grids/valley_warming.json >"$tiny/scenario.json"
+    "$TARGET_DIR"/release/forefield run "$tiny/scenario.json" --out "$tiny/out" \
+        --vegetation "$tiny/valley_vegetation.tif" --layers stage --formats tif >/dev/null
+    cp "$tiny/out/timeline.fftl" "$corpus/run_file/"
+    cp "$tiny/valley_dem.tif" "$corpus/geotiff/tiny_dem.tif"
+    rm -rf "$tiny"
+}
+
+cmd_fuzz() {
+    local seconds="${1:-60}"
+    rustup toolchain list | grep -q '^nightly' || rustup toolchain install nightly --profile minimal
+    command -v cargo-fuzz >/dev/null || cargo install cargo-fuzz
+    build_cli
+    fuzz_corpus
+    for target in "${FUZZ_TARGETS[@]}"; do
+        say "fuzzing $target for $seconds s"
+        cargo +nightly fuzz run --fuzz-dir crate/fuzz "$target" "crate/fuzz/corpus/$target" \
+            -- -max_total_time="$seconds" -rss_limit_mb=2048
+    done
+}
+
 case "${1:-}" in
     serve) cmd_serve ;;
     test) cmd_test ;;
     sample) cmd_sample ;;
     bench) cmd_bench ;;
+    fuzz) cmd_fuzz "${2:-60}" ;;
     *)
-        echo "usage: ./build.sh serve|test|sample|bench" >&2
+        echo "usage: ./build.sh serve|test|sample|bench|fuzz [SECONDS]" >&2
         exit 2
         ;;
 esac
