@@ -6,18 +6,11 @@
 //! the same filled surface.
 
 use forefield_engine::lakes::{fill_depressions, fill_depth_m, LakeMap};
-use forefield_engine::{Grid, GridGeometry};
+use forefield_engine::Grid;
+use forefield_reference_tests::local_geometry;
 
 fn grid(n_cols: usize, n_rows: usize, cell_size_m: f64, values: Vec<f32>) -> Grid {
-    let geometry = GridGeometry {
-        n_cols,
-        n_rows,
-        cell_size_m,
-        west_m: 0.0,
-        north_m: 0.0,
-        epsg: None,
-    };
-    Grid::from_values(geometry, values)
+    Grid::from_values(local_geometry(n_cols, n_rows, cell_size_m), values)
 }
 
 /// A paraboloid bowl z = a r^2 on 101 x 101 cells of 10 m, centred on the middle cell.

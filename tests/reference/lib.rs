@@ -2,7 +2,10 @@
 
 use std::path::PathBuf;
 
+use forefield_engine::coupled::CoupledSimulation;
 use forefield_engine::grid::GridGeometry;
+use forefield_engine::sample::SampleValley;
+use forefield_engine::scenario::Scenario;
 
 /// Path of a file in `tests/fixtures/`.
 pub fn fixture_path(name: &str) -> PathBuf {
@@ -39,4 +42,15 @@ pub fn utm_geometry(n_cols: usize, n_rows: usize, cell_size_m: f64) -> GridGeome
         north_m: 5_000_000.0,
         epsg: Some(32632),
     }
+}
+
+/// A coupled run of ice and plants over an invented sample valley, from its own vegetation.
+pub fn sample_run(valley: &SampleValley, scenario: &Scenario) -> CoupledSimulation {
+    CoupledSimulation::new(
+        &valley.bed_m,
+        &valley.ice_thickness_m,
+        scenario,
+        Some(&valley.vegetation),
+    )
+    .expect("valid run")
 }

@@ -11,11 +11,11 @@
 //! temperature minimum) at the end is left out. Establishment is stochastic: ten seeds, at
 //! least nine in every window. That whole succession takes centuries is a fact of the trade.
 
-use forefield_engine::coupled::CoupledSimulation;
 use forefield_engine::pft::GrowthForm;
 use forefield_engine::sample;
 use forefield_engine::scenario::Scenario;
 use forefield_engine::vegetation::VegetationParams;
+use forefield_reference_tests::sample_run;
 
 fn median(values: &mut [i32]) -> Option<i32> {
     values.sort_unstable();
@@ -47,13 +47,7 @@ fn chronosequence(seed: u64) -> Lags {
     scenario.relaxation_years = 0;
     scenario.mass_balance.snow_redistribution = false;
     let params = VegetationParams::default();
-    let mut run = CoupledSimulation::new(
-        &valley.bed_m,
-        &valley.ice_thickness_m,
-        &scenario,
-        Some(&valley.vegetation),
-    )
-    .expect("valid run");
+    let mut run = sample_run(&valley, &scenario);
     let n = valley.bed_m.geometry.n_cells();
     let forms: Vec<GrowthForm> = params.types.iter().map(|t| t.growth_form).collect();
     // The treeline: the lowest growing-season temperature any tree type needs.

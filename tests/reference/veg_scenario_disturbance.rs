@@ -10,6 +10,7 @@ use forefield_engine::coupled::CoupledSimulation;
 use forefield_engine::disturbance::scenario_disturbances;
 use forefield_engine::sample::{self, vegetation_code};
 use forefield_engine::scenario::Scenario;
+use forefield_reference_tests::sample_run;
 
 /// Cover of all types summed, averaged over `cells`.
 fn mean_cover(run: &CoupledSimulation, cells: &[usize]) -> f32 {
@@ -75,13 +76,7 @@ fn burn_from_the_scenario_recovers_faster_than_fresh_ground() {
         .all(|&i| (row0..row0 + 12).contains(&(i / g.n_cols))
             && (col0..col0 + 12).contains(&(i % g.n_cols))));
 
-    let mut run = CoupledSimulation::new(
-        &valley.bed_m,
-        &valley.ice_thickness_m,
-        &scenario,
-        Some(&valley.vegetation),
-    )
-    .expect("valid run");
+    let mut run = sample_run(&valley, &scenario);
     run.add_scenario_disturbances(&scenario, resolve)
         .expect("the burn lies on the grid and inside the run");
     let before = mean_cover(&run, &burnt);

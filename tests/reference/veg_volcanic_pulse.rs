@@ -13,6 +13,7 @@ use forefield_engine::climate::VolcanicPulse;
 use forefield_engine::coupled::CoupledSimulation;
 use forefield_engine::sample::{self, vegetation_code::ICE};
 use forefield_engine::scenario::Scenario;
+use forefield_reference_tests::sample_run;
 
 struct End {
     stage: Vec<u8>,
@@ -37,13 +38,7 @@ fn run(seed: u64, pulse: bool) -> End {
             decay_years: 1.0,
         }];
     }
-    let mut run = CoupledSimulation::new(
-        &valley.bed_m,
-        &valley.ice_thickness_m,
-        &scenario,
-        Some(&valley.vegetation),
-    )
-    .expect("valid run");
+    let mut run = sample_run(&valley, &scenario);
     let limits = |run: &CoupledSimulation| -> Vec<f32> {
         let ice = run.ice().ice_thickness_m();
         (0..run.vegetation().n_types())

@@ -178,7 +178,7 @@ pub struct IceSimulation {
     summary: Vec<YearSummary>,
     ice_box: Option<CellBox>,
     /// Scratch for one block's surface-less-bed values and their sorted copy.
-    block_weights: Vec<f64>,
+    block_scratch: Vec<f64>,
     /// The input grid's bed, for placing ice within a block (nodata cells hold 0).
     fine_bed_m: Vec<f32>,
     /// Valid fine cells of each ice-grid block.
@@ -387,7 +387,7 @@ impl IceSimulation {
             ice_thickness_m: vec![0.0; n_cols * n_rows],
             exposure: ExposureTracker::new(&[]),
             summary: Vec::with_capacity(scenario.n_years as usize + 1),
-            block_weights: vec![0.0; 2 * block * block],
+            block_scratch: vec![0.0; 2 * block * block],
             fine_bed_m: bed_m
                 .values
                 .iter()
@@ -634,7 +634,7 @@ impl IceSimulation {
         let (ice_cols, ice_rows) = (self.ice_cols, self.ice_rows);
         let ice = &self.ice_grid_thickness_m;
         let ice_bed = self.stepper.bed_m();
-        let weights = &mut self.block_weights;
+        let scratch = &mut self.block_scratch;
         for ice_row in ice_box.row_min..=ice_box.row_max {
             let rows = ice_row * k..((ice_row + 1) * k).min(n_rows);
             for ice_col in ice_box.col_min..=ice_box.col_max {
@@ -650,7 +650,7 @@ impl IceSimulation {
                 let near = neighbour_surfaces(ice, ice_bed, ice_cols, ice_rows, ice_row, ice_col);
                 // Interpolated surface less fine bed in the first k*k slots; the valid ones,
                 // sorted, in the rest.
-                let (above_bed, sorted) = weights.split_at_mut(k * k);
+                let (above_bed, sorted) = scratch.split_at_mut(k * k);
                 let mut n_valid = 0usize;
                 for (i, row) in rows.clone().enumerate() {
                     // Offset of the fine centre from the block centre, in ice cells.
