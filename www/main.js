@@ -11,6 +11,7 @@ import { TimeBar } from './timebar.js';
 import { LineChart, MultiChart } from './charts.js';
 import { ExportPanel } from './exports.js';
 import { ZonePanel } from './zones.js';
+import { ENGINE_WASM, fileUrl, keepForOffline, workerWasm } from './files.js';
 
 const SAMPLE_URL = './sample-grids/valley_dem.tif';
 const SAMPLE_ICE_URL = './sample-grids/valley_ice_thickness.tif';
@@ -126,7 +127,7 @@ async function boot() {
     // Imported here rather than at the top so a missing or broken engine build still
     // leaves a page that says what went wrong.
     engine = await import('./pkg/forefield_wasm.js');
-    wasm = await engine.default();
+    wasm = await engine.default({ module_or_path: fileUrl(ENGINE_WASM) });
     workspace = new engine.Workspace();
   } catch (error) {
     document.body.dataset.state = 'failed';
@@ -400,7 +401,7 @@ async function boot() {
   }
 
   async function fetchBytes(url) {
-    const response = await fetch(url);
+    const response = await fetch(fileUrl(url));
     if (!response.ok) throw new Error(`the server answered ${response.status}`);
     return new Uint8Array(await response.arrayBuffer());
   }
@@ -456,7 +457,7 @@ async function boot() {
   }
 
   function makeWorker() {
-    const created = new Worker('./worker.js', { type: 'module' });
+    const created = new Worker(fileUrl('./worker.js'));
     created.onmessage = (event) => onWorkerMessage(event.data);
     created.onerror = (event) => {
       retireWorker();
@@ -574,7 +575,7 @@ async function boot() {
     lastRun = { scenarioJson, surface, ice, vegetation };
     worker ??= makeWorker();
     worker.postMessage({
-      type: 'run', scenarioJson, surfaceBytes: surface.bytes, surfaceName: surface.name,
+      type: 'run', wasm: await workerWasm(), scenarioJson, surfaceBytes: surface.bytes, surfaceName: surface.name,
       iceBytes: ice.bytes, iceName: ice.name,
       vegetationBytes: vegetation?.bytes ?? null, vegetationName: vegetation?.name ?? null,
       domainBytes: domain?.bytes ?? null, domainName: domain?.name ?? null,
@@ -760,6 +761,7 @@ async function boot() {
     mapMessage.textContent = 'No terrain yet. Use Open “Terrain…” or drop a GeoTIFF here.';
   }
   document.body.dataset.state = 'ready';
+  keepForOffline();
 }
 
 boot();

@@ -2,10 +2,18 @@
 // the engine, so the page's thread only renders. Messages in: {type: 'run', ...} and {type: 'cancel'}.
 // Messages out: 'started', 'progress' (one per year), 'done' (the timeline as a transferred
 // ArrayBuffer, the yearly summary rows and the same summary as CSV), 'cancelled' and 'failed' (with the engine's message).
+//
+// A classic script, not a module: Chromium starts no module worker from a file:// page, and
+// the one-file page (dist/forefield.html) runs this worker from a blob: URL with the engine's
+// classic glue placed before it, so the glue is loaded here only when it is not there yet.
 
-import init, { RunRecorder } from './pkg/forefield_wasm.js';
+/* global wasm_bindgen */
+if (typeof wasm_bindgen === 'undefined') importScripts('./pkg/forefield_wasm_classic.js');
+const { RunRecorder } = wasm_bindgen;
 
-const ready = init();
+// The page says where the engine's wasm is: a URL beside the page, or its bytes when the page
+// carries them inside (a blob: URL of the page is not readable from a worker on file://).
+let ready = null;
 let cancelRequested = false;
 
 // A zero-delay yield through a MessageChannel, so a 'cancel' message can arrive between years
@@ -19,12 +27,13 @@ function yieldToMessages() {
 }
 
 async function run({
-  scenarioJson, surfaceBytes, surfaceName, iceBytes, iceName, vegetationBytes, vegetationName,
+  wasm, scenarioJson, surfaceBytes, surfaceName, iceBytes, iceName, vegetationBytes, vegetationName,
   domainBytes, domainName,
 }) {
   cancelRequested = false;
   let recorder = null;
   try {
+    ready ??= wasm_bindgen({ module_or_path: wasm });
     await ready;
     // Without a vegetation grid the engine starts each ice-free cell at its potential
     // vegetation.
