@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # Forefield build entry point. Every subcommand installs what it is missing, idempotently.
 #   ./build.sh serve   build the wasm page and serve www/ on 127.0.0.1 (PORT, default 8765)
+#   ./build.sh dist    publish the page: dist/ for any static host, dist/forefield.html in one file
 #   ./build.sh test    formatting, lints (native and wasm), all Rust tests, wasm build, browser tests
 #   ./build.sh sample  regenerate the committed demo grids in sample-grids/
 #   ./build.sh bench   native and in-browser benchmarks, printed as JSON lines
@@ -46,6 +47,17 @@ ensure_chromium() {
     fi
 }
 
+ensure_firefox() {
+    if [ ! -x /usr/bin/firefox-esr ]; then
+        say "installing Debian firefox-esr"
+        if [ "$(id -u)" -eq 0 ]; then
+            apt-get update && apt-get install -y --no-install-recommends firefox-esr
+        else
+            sudo apt-get update && sudo apt-get install -y --no-install-recommends firefox-esr
+        fi
+    fi
+}
+
 ensure_node_deps() {
     # Reinstall whenever the lock file changed since the last install.
     if ! cmp -s tests/browser/package-lock.json tests/browser/node_modules/.installed-lock.json; then
@@ -62,6 +74,15 @@ build_wasm() {
     say "generating www/pkg with wasm-bindgen"
     wasm-bindgen --target web --no-typescript --out-dir www/pkg \
         "$TARGET_DIR/$WASM_TARGET/release/forefield_wasm.wasm"
+    # The run worker is a classic script (the one-file page runs it from a blob: URL, where
+    # module workers are refused); its glue drives the same wasm, so only one copy is kept.
+    # The glue keeps its default name until copied: the wasm imports its helpers under it.
+    local classic="$TARGET_DIR/wasm-classic"
+    wasm-bindgen --target no-modules --no-typescript --out-dir "$classic" \
+        "$TARGET_DIR/$WASM_TARGET/release/forefield_wasm.wasm"
+    cmp -s www/pkg/forefield_wasm_bg.wasm "$classic/forefield_wasm_bg.wasm" \
+        || { echo "the two wasm-bindgen targets wrote different wasm" >&2; exit 1; }
+    cp "$classic/forefield_wasm.js" www/pkg/forefield_wasm_classic.js
     rm -rf www/sample-grids
     mkdir -p www/sample-grids
     cp sample-grids/*.tif sample-grids/*.json www/sample-grids/ 2>/dev/null || cp sample-grids/*.tif www/sample-grids/
@@ -91,6 +112,17 @@ free_port() {
         || echo 18765
 }
 
+build_dist() {
+    say "publishing the page to dist/"
+    "$TARGET_DIR"/release/forefield dist --from www --out dist
+}
+
+cmd_dist() {
+    build_wasm
+    build_cli
+    build_dist
+}
+
 cmd_serve() {
     build_wasm
     build_cli
@@ -110,9 +142,14 @@ cmd_test() {
     cargo clippy -p forefield-wasm -p forefield-engine --target "$WASM_TARGET" -- -D warnings
     say "cargo test (workspace)"
     cargo test --workspace
+    # Running them is ./build.sh fuzz (nightly, instrumented); here they must still compile.
+    say "fuzz targets compile (stable, uninstrumented)"
+    cargo build --manifest-path crate/fuzz/Cargo.toml --target-dir "$TARGET_DIR/fuzz-check"
     build_wasm
     build_cli
+    build_dist
     ensure_chromium
+    ensure_firefox
     ensure_node_deps
     local port
     port="$(free_port)"
@@ -120,7 +157,7 @@ cmd_test() {
     trap 'kill $SERVER_PID 2>/dev/null || true' EXIT
     say "browser tests (headless Debian chromium) against http://127.0.0.1:$port/"
     # The export tests compare the page's files with the command line's.
-    (cd tests/browser && FOREFIELD_URL="http://127.0.0.1:$port/" \
+    (cd tests/browser && FOREFIELD_URL="http://127.0.0.1:$port/" FOREFIELD_DIST="$ROOT/dist" \
         FOREFIELD_CLI="$(cd "$ROOT" && realpath "$TARGET_DIR/release/forefield")" \
         node --test --test-concurrency=1)
     kill "$SERVER_PID" 2>/dev/null || true
@@ -192,12 +229,13 @@ cmd_fuzz() {
 
 case "${1:-}" in
     serve) cmd_serve ;;
+    dist) cmd_dist ;;
     test) cmd_test ;;
     sample) cmd_sample ;;
     bench) cmd_bench ;;
     fuzz) cmd_fuzz "${2:-60}" ;;
     *)
-        echo "usage: ./build.sh serve|test|sample|bench|fuzz [SECONDS]" >&2
+        echo "usage: ./build.sh serve|dist|test|sample|bench|fuzz [SECONDS]" >&2
         exit 2
         ;;
 esac

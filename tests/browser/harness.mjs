@@ -9,6 +9,12 @@ import { chromium } from 'playwright-core';
 
 export const PAGE_URL = process.env.FOREFIELD_URL ?? 'http://127.0.0.1:8765/';
 const ORIGIN = new URL(PAGE_URL).origin;
+/** Debian's Chromium, headless, with nothing of its own reaching out to the network. */
+export const CHROMIUM = {
+  executablePath: '/usr/bin/chromium',
+  args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
+    '--disable-component-update', '--no-first-run'],
+};
 export const ARTIFACTS = join(dirname(fileURLToPath(import.meta.url)), 'artifacts');
 
 /** Parses "1,548.3 m" or "53.7°" as shown on the page. */
@@ -127,11 +133,7 @@ export async function expectRefused(fileName) {
 /** Opens the served page in headless Debian Chromium at a laptop's window size. */
 export async function startPage() {
   mkdirSync(ARTIFACTS, { recursive: true });
-  session.browser = await chromium.launch({
-    executablePath: '/usr/bin/chromium',
-    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
-      '--disable-component-update', '--no-first-run'],
-  });
+  session.browser = await chromium.launch(CHROMIUM);
   const context = await session.browser.newContext({ viewport: { width: 1280, height: 800 } });
   // Every request is seen here; anything for another origin is recorded and refused.
   await context.route('**/*', (route) => {

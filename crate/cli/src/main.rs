@@ -12,6 +12,7 @@ macro_rules! outln {
 }
 
 mod bench;
+mod dist;
 mod export;
 mod exports;
 mod run;
@@ -53,6 +54,9 @@ USAGE:
                                               dispersal against direct convolution, as JSON lines
                                               (default DIR sample-grids/large)
     forefield serve [--dir DIR] [--port P]    serve a folder on 127.0.0.1 (default www, 8765)
+    forefield dist [--from DIR] [--out DIR]   publish the built page: a folder for any static host
+                                              and OUT/forefield.html, one file that opens offline
+                                              (default www, dist)
     forefield help                            this text
 
 Outputs are planning-level scenarios, not hazard assessments or forecasts; consult local
@@ -99,6 +103,20 @@ fn dispatch(args: &[String]) -> Result<()> {
                 None => 8765,
             };
             serve::serve(&dir, port)
+        }
+        "dist" => {
+            let from = PathBuf::from(flag(rest, "--from")?.unwrap_or_else(|| "www".into()));
+            let out = PathBuf::from(flag(rest, "--out")?.unwrap_or_else(|| "dist".into()));
+            let published = dist::dist(&from, &out)?;
+            outln!(
+                "wrote {} ({} files, version {}) and {} ({:.1} MB, opens from file://)",
+                out.display(),
+                published.files,
+                published.version,
+                published.single_file.display(),
+                published.single_file_bytes as f64 / 1e6
+            );
+            Ok(())
         }
         "help" | "--help" | "-h" => {
             outln!("{USAGE}");

@@ -1,7 +1,8 @@
 //! A small static file server on 127.0.0.1 for the page (GET and HEAD, correct MIME types).
 //!
 //! Browsers only compile wasm streamed as `application/wasm` and only load module scripts
-//! with a JavaScript type, which is why the page is not opened from `file://`.
+//! with a JavaScript type, which is why the page folder is not opened from `file://` (the
+//! one-file page that `forefield dist` writes is made for that).
 
 use std::io::{BufRead, BufReader, Write};
 use std::net::{TcpListener, TcpStream};
