@@ -7,18 +7,9 @@
 //! (EPSG:32626) so that it never coincides with a real place. Values come from smooth
 //! closed-form shapes plus hashed value noise, so the output is identical on every machine.
 
-use crate::grid::{Grid, GridGeometry};
+use crate::base::grid::{Grid, GridGeometry};
 
-/// Stage codes of the existing-vegetation grid (the succession stages of the model).
-pub mod vegetation_code {
-    pub const ICE: u8 = 0;
-    pub const BARE: u8 = 1;
-    pub const PIONEER: u8 = 2;
-    pub const MEADOW: u8 = 3;
-    pub const SHRUBLAND: u8 = 4;
-    pub const YOUNG_FOREST: u8 = 5;
-    pub const MATURE_FOREST: u8 = 6;
-}
+pub use crate::plants::vegetation_code;
 
 /// The demo valley's layers on one grid.
 pub struct SampleValley {
@@ -64,7 +55,8 @@ pub fn generate(n: usize) -> SampleValley {
     }
     let surface: Vec<f32> = bed.iter().zip(&ice).map(|(b, h)| b + h).collect();
     let surface_m = Grid::from_values(geometry, surface);
-    let slope = crate::terrain::derivatives(&surface_m, crate::terrain::Sun::default()).slope_deg;
+    let slope = crate::base::terrain::derivatives(&surface_m, crate::base::terrain::Sun::default())
+        .slope_deg;
     let vegetation: Vec<f32> = (0..cells)
         .map(|idx| {
             let (row, col) = (idx / n, idx % n);

@@ -12,10 +12,10 @@ use std::fmt::Write as _;
 
 use super::layer_geotiff::EXPOSED_BEFORE_START_VALUE;
 use super::{check_grid, check_run, one_line, ExportError, ExportMeta, CAUTION};
-use crate::grid::Grid;
-use crate::layers::STAGE_PALETTE;
-use crate::recorded_run::RecordedRow;
-use crate::timeline::{PlantQuantity, Timeline, COVERED};
+use crate::base::grid::Grid;
+use crate::run::recorded::RecordedRow;
+use crate::run::timeline::{PlantQuantity, Timeline, COVERED};
+use crate::view::layers::STAGE_PALETTE;
 
 /// Line end of every record (RFC 4180 section 2.1).
 pub(crate) const CRLF: &str = "\r\n";
@@ -161,7 +161,7 @@ fn state_columns(timeline: &Timeline) -> Vec<String> {
 struct CellState {
     ground_m: f32,
     thickness_m: f32,
-    /// Exposure year, or [`COVERED`] / [`crate::timeline::NEVER_COVERED`].
+    /// Exposure year, or [`COVERED`] / [`crate::run::timeline::NEVER_COVERED`].
     exposure: i32,
     /// Stage code, for runs with plants.
     stage: Option<u8>,
@@ -178,7 +178,7 @@ fn write_state(out: &mut String, timeline: &Timeline, idx: usize, year: i32, cel
     // The layer GeoTIFF's coding: under ice has no year (empty here, nodata there).
     let exposure = match exposure {
         COVERED => String::new(),
-        crate::timeline::NEVER_COVERED => format!("{EXPOSED_BEFORE_START_VALUE}"),
+        crate::run::timeline::NEVER_COVERED => format!("{EXPOSED_BEFORE_START_VALUE}"),
         y => y.to_string(),
     };
     let _ = write!(
@@ -381,7 +381,7 @@ pub fn cell_history_csv(
             let exposure = match timeline.cover_at(idx, year) {
                 (true, _) => COVERED,
                 (false, Some(y)) => y,
-                (false, None) => crate::timeline::NEVER_COVERED,
+                (false, None) => crate::run::timeline::NEVER_COVERED,
             };
             let _ = write!(out, "{col},{row},{x:.2},{y:.2},{year}");
             write_state(

@@ -3,7 +3,7 @@
 //! `contour` crate, into `geo` types) and converted to WGS 84 longitude and latitude.
 //!
 //! RFC 7946 wants WGS 84 coordinates. Grids in a UTM zone on WGS 84 or ETRS89 are converted
-//! ([`super::utm`]); for any other CRS the coordinates stay in the grid's own CRS and the
+//! ([`crate::io::utm`]); for any other CRS the coordinates stay in the grid's own CRS and the
 //! `forefield` foreign member says so (`coordinates` and `source_crs`), since converting
 //! them would need a projection library that the page cannot carry. Positions are rounded to
 //! 1e-7 degree (about 1 cm) or 0.01 m. Outer rings run anticlockwise, holes clockwise
@@ -18,11 +18,11 @@ use std::fmt::Write as _;
 use contour::ContourBuilder;
 use geo::{LineString, MultiPolygon};
 
-use super::utm::UtmZone;
 use super::{check_grid, check_year, ExportError, ExportMeta, CAUTION};
-use crate::grid::{Grid, GridGeometry};
-use crate::layers::STAGE_PALETTE;
-use crate::timeline::{Timeline, COVERED};
+use crate::base::grid::{Grid, GridGeometry};
+use crate::io::utm::UtmZone;
+use crate::run::timeline::{Timeline, COVERED};
+use crate::view::layers::STAGE_PALETTE;
 
 /// Where positions end up.
 enum Target {

@@ -1,6 +1,6 @@
 //! Any layer of any recorded year as a single-band GeoTIFF (TIFF 6.0 with OGC GeoTIFF 1.1
 //! tags, OGC 19-008r4), georeferenced exactly as the terrain DEM, through the engine's
-//! writer [`crate::geotiff::write_geotiff_described`], which puts the layer, year, scenario
+//! writer [`crate::io::geotiff::write_geotiff_described`], which puts the layer, year, scenario
 //! and caution in the ImageDescription tag.
 //!
 //! Values and types: ice thickness (m, f32, 0 where ice-free); exposure year (f32: the
@@ -12,13 +12,13 @@
 //! draws.
 
 use super::{bed_of, check_layer, check_run, layer_file_stem, ExportError, ExportMeta, CAUTION};
-use crate::geotiff::{write_geotiff_described, SampleType, TiffCompression, WriteOptions};
-use crate::grid::Grid;
-use crate::lakes::LakeMap;
-use crate::layers::LayerKind;
-use crate::steep_ground;
-use crate::terrain::{self, Sun};
-use crate::timeline::{PlantQuantity, Timeline, COVERED, NEVER_COVERED};
+use crate::base::grid::Grid;
+use crate::base::terrain::{self, Sun};
+use crate::io::geotiff::{write_geotiff_described, SampleType, TiffCompression, WriteOptions};
+use crate::run::timeline::{PlantQuantity, Timeline, COVERED, NEVER_COVERED};
+use crate::view::lakes::LakeMap;
+use crate::view::layers::LayerKind;
+use crate::view::steep_ground;
 
 /// Nodata marker of float layers.
 pub const NODATA_VALUE: f64 = -9999.0;

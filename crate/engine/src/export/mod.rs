@@ -9,15 +9,15 @@ pub mod csv_tables;
 pub mod geojson_shapes;
 pub mod layer_geotiff;
 pub mod png_snapshot;
-pub mod utm;
+pub mod zones;
 
 use thiserror::Error;
 
-use crate::grid::Grid;
-use crate::layers::{LayerKind, LayerRenderer};
-use crate::scenario::Scenario;
-use crate::terrain::{self, Sun};
-use crate::timeline::Timeline;
+use crate::base::grid::Grid;
+use crate::base::terrain::{self, Sun};
+use crate::run::scenario::Scenario;
+use crate::run::timeline::Timeline;
+use crate::view::layers::{LayerKind, LayerRenderer};
 
 /// The caution every output carries.
 pub const CAUTION: &str = "Outputs are planning-level scenarios, not hazard assessments or \

@@ -8,10 +8,10 @@
 use font8x8::{UnicodeFonts, BASIC_FONTS, LATIN_FONTS};
 
 use super::{check_layer, check_run, ExportError, ExportMeta, CAUTION};
-use crate::grid::Grid;
-use crate::layers::{self, LayerKind, LayerLegend, LayerRenderer};
-use crate::render::encode_png_with_text;
-use crate::timeline::Timeline;
+use crate::base::grid::Grid;
+use crate::run::timeline::Timeline;
+use crate::view::layers::{self, LayerKind, LayerLegend, LayerRenderer};
+use crate::view::render::encode_png_with_text;
 
 /// Font scale: 8 x 8 glyphs drawn as 16 x 16 pixels.
 const SCALE: usize = 2;
