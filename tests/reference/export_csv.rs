@@ -6,8 +6,8 @@
 
 use forefield_engine::export::csv_tables::{cell_history_csv, summary_csv, CellsCsv};
 use forefield_engine::export::CAUTION;
-use forefield_engine::layers::STAGE_PALETTE;
-use forefield_engine::timeline::PlantQuantity;
+use forefield_engine::run::timeline::PlantQuantity;
+use forefield_engine::view::layers::STAGE_PALETTE;
 
 use crate::export_fixture::{export_run, N_YEARS};
 

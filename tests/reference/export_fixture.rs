@@ -6,11 +6,11 @@ use std::path::PathBuf;
 use std::sync::OnceLock;
 
 use forefield_engine::export::ExportMeta;
-use forefield_engine::geotiff::read_geotiff;
-use forefield_engine::recorded_run::{RecordedRow, RecordedRun};
-use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::bed_from_surface;
-use forefield_engine::timeline::Timeline;
+use forefield_engine::io::geotiff::read_geotiff;
+use forefield_engine::run::recorded::{RecordedRow, RecordedRun};
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::simulation::bed_from_surface;
+use forefield_engine::run::timeline::Timeline;
 use forefield_engine::Grid;
 
 pub struct ExportRun {

@@ -7,9 +7,9 @@
 //! perimeter (the outline runs half-way between cell centres inside and outside).
 
 use forefield_engine::export::geojson_shapes::{ice_outlines_geojson, stage_polygons_geojson};
-use forefield_engine::export::utm::UtmZone;
 use forefield_engine::export::CAUTION;
-use forefield_engine::timeline::COVERED;
+use forefield_engine::io::utm::UtmZone;
+use forefield_engine::run::timeline::COVERED;
 use geojson::GeoJson;
 use proj4rs::proj::Proj;
 

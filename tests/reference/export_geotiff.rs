@@ -7,9 +7,9 @@
 use std::io::Cursor;
 
 use forefield_engine::export::layer_geotiff::{layer_geotiff, layer_grid, STAGE_NODATA};
-use forefield_engine::layers::LayerKind;
-use forefield_engine::scenario::Scenario;
-use forefield_engine::timeline::PlantQuantity;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::timeline::PlantQuantity;
+use forefield_engine::view::layers::LayerKind;
 use tiff::decoder::{Decoder, DecodingResult};
 use tiff::tags::Tag;
 

@@ -5,7 +5,7 @@
 
 use forefield_engine::export::bed_renderer;
 use forefield_engine::export::png_snapshot::snapshot_png;
-use forefield_engine::layers::{legend, LayerKind};
+use forefield_engine::view::layers::{legend, LayerKind};
 
 use crate::export_fixture::export_run;
 

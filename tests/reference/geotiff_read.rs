@@ -1,7 +1,7 @@
 //! GeoTIFF reading checked against files written by an independent writer (GDAL 3.6.2's
 //! gdal_translate, see `tests/fixtures/make_gdal_fixtures.sh`) and the refusals of issue 2.
 
-use forefield_engine::geotiff::{
+use forefield_engine::io::geotiff::{
     read_geotiff, read_geotiff_with, write_geotiff, write_geotiff_with, ReadOptions, SampleType,
     TiffCompression, WriteOptions,
 };

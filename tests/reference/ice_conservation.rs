@@ -4,11 +4,11 @@
 //! cell holds (Jarosch, Schoof & Anslow 2013, The Cryosphere 7:229-240); no ice appears where
 //! the balance is negative and no flux can arrive; identical inputs give identical results.
 
-use forefield_engine::grid::{Grid, GridGeometry};
-use forefield_engine::ice_flow::{FlowParams, SiaStepper};
-use forefield_engine::mass_balance::LinearBalance;
-use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::IceSimulation;
+use forefield_engine::base::grid::{Grid, GridGeometry};
+use forefield_engine::ice::flow::{FlowParams, SiaStepper};
+use forefield_engine::ice::mass_balance::LinearBalance;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::simulation::IceSimulation;
 
 /// Small deterministic generator (xorshift64*), so every case is reproducible.
 struct Rng(u64);

@@ -9,9 +9,9 @@
 //! cover threshold) disagrees with the surface-minus-bed truth lies within one fine cell of
 //! the true margin, and each block keeps its volume.
 
-use forefield_engine::grid::Grid;
-use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::IceSimulation;
+use forefield_engine::base::grid::Grid;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::simulation::IceSimulation;
 use forefield_reference_tests::utm_geometry;
 
 const N: usize = 96;

@@ -9,8 +9,8 @@
 //! published figure): 20 km: dome +0.22 m, mean |err| 2.06 m, max |err| 107.3 m,
 //! R(H > 1 m) 952.7 km against the exact 941.7 km.
 
-use forefield_engine::ice_flow::{FlowConstants, SiaStepper, SECONDS_PER_YEAR};
-use forefield_engine::mass_balance::LinearBalance;
+use forefield_engine::ice::flow::{FlowConstants, SiaStepper, SECONDS_PER_YEAR};
+use forefield_engine::ice::mass_balance::LinearBalance;
 
 const ALPHA: f64 = 1.0 / 9.0;
 const BETA: f64 = 1.0 / 18.0;

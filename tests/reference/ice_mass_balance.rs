@@ -5,13 +5,13 @@
 //! of -0.5 K for about 2 years (Hansen et al. 1992, GRL 19(2):215-218) lowers the ELA by at
 //! most 77 m at 154 m/K and changes the glacier only a little.
 
-use forefield_engine::climate::{AnomalyPoint, VolcanicPulse};
-use forefield_engine::grid::{Grid, GridGeometry};
-use forefield_engine::mass_balance::{
+use forefield_engine::base::grid::{Grid, GridGeometry};
+use forefield_engine::ice::climate::{AnomalyPoint, VolcanicPulse};
+use forefield_engine::ice::mass_balance::{
     MassBalanceParams, ENERGY_BALANCE_ELA_SENSITIVITY_M_PER_K, LAPSE_RATE_ELA_SENSITIVITY_M_PER_K,
 };
-use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::IceSimulation;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::simulation::IceSimulation;
 
 #[test]
 fn default_sensitivity_is_bracketed_by_lapse_rate_and_energy_balance_values() {

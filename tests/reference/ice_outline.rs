@@ -6,8 +6,10 @@
 //! about a factor of two (from memory), which sets the per-glacier tolerance; the ensemble
 //! must agree within a factor of two (section 7 test).
 
-use forefield_engine::grid::{Grid, GridGeometry};
-use forefield_engine::ice_outline::{scaling_volume_m3, thickness_from_outline, PlasticityParams};
+use forefield_engine::base::grid::{Grid, GridGeometry};
+use forefield_engine::ice::outline_thickness::{
+    scaling_volume_m3, thickness_from_outline, PlasticityParams,
+};
 use forefield_engine::sample;
 
 fn params(tau_pa: f64, shape_factor: f64) -> PlasticityParams {

@@ -8,14 +8,14 @@
 //! on the summits (the failure this check guards); a calibrated ELA gives the stated mean
 //! balance; the accumulation-area rule gives the ELA worked by hand.
 
-use forefield_engine::export::utm::UtmZone;
-use forefield_engine::geotiff::read_geotiff;
-use forefield_engine::grid::{Grid, GridGeometry};
-use forefield_engine::mass_balance::DomainRule;
-use forefield_engine::outline::outline_mask;
-use forefield_engine::run_inputs::outline_thickness;
-use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::{bed_from_surface, IceSimulation};
+use forefield_engine::base::grid::{Grid, GridGeometry};
+use forefield_engine::ice::mass_balance::DomainRule;
+use forefield_engine::io::geotiff::read_geotiff;
+use forefield_engine::io::outline::outline_mask;
+use forefield_engine::io::utm::UtmZone;
+use forefield_engine::run::inputs::outline_thickness;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::simulation::{bed_from_surface, IceSimulation};
 use forefield_reference_tests::fixture;
 use proj4rs::proj::Proj;
 
@@ -103,7 +103,10 @@ fn warming_does_not_grow_the_glacier_on_real_terrain() {
     let mut scenario = warming(60, 0.25);
     let (_, bed, thickness) = glacier(&scenario);
     let mut start = 0.0;
-    for aar in [None, Some(forefield_engine::mass_balance::BALANCED_AAR)] {
+    for aar in [
+        None,
+        Some(forefield_engine::ice::mass_balance::BALANCED_AAR),
+    ] {
         scenario.mass_balance.balanced_aar = aar;
         let mut run = IceSimulation::new(&bed, &thickness, &scenario).expect("valid");
         while run.step_year().is_some() {}
@@ -144,7 +147,7 @@ fn warming_does_not_grow_the_glacier_on_real_terrain() {
 #[test]
 fn ground_outside_the_domain_never_gains_ice_from_the_balance() {
     let mut scenario = warming(30, 0.0);
-    scenario.climate.anomaly_table = vec![forefield_engine::climate::AnomalyPoint {
+    scenario.climate.anomaly_table = vec![forefield_engine::ice::climate::AnomalyPoint {
         year: 2000.0,
         anomaly_c: -1.5,
     }];
@@ -228,7 +231,7 @@ fn the_balanced_ratio_gives_the_ela_worked_by_hand() {
     let ice = Grid::filled(geometry, 50.0);
     let bed = Grid::from_values(geometry, surface.iter().map(|z| z - 50.0).collect());
     let mut scenario = warming(1, 0.0);
-    scenario.mass_balance.balanced_aar = Some(forefield_engine::mass_balance::BALANCED_AAR);
+    scenario.mass_balance.balanced_aar = Some(forefield_engine::ice::mass_balance::BALANCED_AAR);
     let run = IceSimulation::new(&bed, &ice, &scenario).expect("valid");
     let ela = run.calibration().start_ela_m;
     assert!((ela - 2420.0).abs() < 1e-3, "{ela}");

@@ -8,8 +8,8 @@
 //! lengthens the response (Harrison, Elsberg, Echelmeyer & Krimmel 2001, J. Glaciol.), so the
 //! model is expected on the long side of tau_V.
 
-use forefield_engine::ice_flow::{FlowParams, SiaStepper};
-use forefield_engine::mass_balance::LinearBalance;
+use forefield_engine::ice::flow::{FlowParams, SiaStepper};
+use forefield_engine::ice::mass_balance::LinearBalance;
 
 const N_COLS: usize = 15;
 const N_ROWS: usize = 70;

@@ -23,8 +23,8 @@
 //! Both errors fall about twofold as dx halves (first order, set by the margin cells). Over
 //! the last 5 ka the volume changes by under 2e-6 of itself.
 
-use forefield_engine::ice_flow::{FlowConstants, SiaStepper};
-use forefield_engine::mass_balance::LinearBalance;
+use forefield_engine::ice::flow::{FlowConstants, SiaStepper};
+use forefield_engine::ice::mass_balance::LinearBalance;
 
 const M0_M_A: f64 = 0.3;
 const L_M: f64 = 750e3;

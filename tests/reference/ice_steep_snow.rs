@@ -5,9 +5,9 @@
 //! years, while without the redistribution it holds 20 years of snowfall; and the total mass
 //! gained is the same with and without it, to round-off (the transport only moves snow).
 
-use forefield_engine::grid::Grid;
-use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::IceSimulation;
+use forefield_engine::base::grid::Grid;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::simulation::IceSimulation;
 use forefield_reference_tests::utm_geometry;
 
 const N: usize = 40;

@@ -5,7 +5,7 @@
 //! *Catena* 46:159-176, with a zero slope increment, which Barnes et al. (2014) name as giving
 //! the same filled surface.
 
-use forefield_engine::lakes::{fill_depressions, fill_depth_m, LakeMap};
+use forefield_engine::view::lakes::{fill_depressions, fill_depth_m, LakeMap};
 use forefield_engine::Grid;
 use forefield_reference_tests::local_geometry;
 

@@ -2,10 +2,10 @@
 
 use std::path::PathBuf;
 
-use forefield_engine::coupled::CoupledSimulation;
-use forefield_engine::grid::GridGeometry;
+use forefield_engine::base::grid::GridGeometry;
+use forefield_engine::run::coupled::CoupledSimulation;
+use forefield_engine::run::scenario::Scenario;
 use forefield_engine::sample::SampleValley;
-use forefield_engine::scenario::Scenario;
 
 /// Path of a file in `tests/fixtures/`.
 pub fn fixture_path(name: &str) -> PathBuf {

@@ -1,9 +1,9 @@
 //! GeoJSON outline rasterisation checked against the polygon area from the `geo` crate
 //! (shoelace formula) and the ice-from-outline volume against volume-area scaling.
 
-use forefield_engine::geotiff::read_geotiff;
-use forefield_engine::ice_outline::{thickness_from_outline, PlasticityParams};
-use forefield_engine::outline::{rasterise, read_outline};
+use forefield_engine::ice::outline_thickness::{thickness_from_outline, PlasticityParams};
+use forefield_engine::io::geotiff::read_geotiff;
+use forefield_engine::io::outline::{rasterise, read_outline};
 use forefield_reference_tests::fixture_path;
 
 fn sample(name: &str) -> Vec<u8> {

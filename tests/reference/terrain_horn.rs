@@ -14,10 +14,10 @@
 //! Independent reference: GDAL 3.6.2 `gdaldem` (Horn's method is its default) on
 //! `tests/fixtures/slopes.asc`.
 
-use forefield_engine::geotiff::read_geotiff;
-use forefield_engine::terrain::{
+use forefield_engine::base::terrain::{
     aspect_deg, derivatives, hillshade_value, horn_gradient, slope_deg, Sun,
 };
+use forefield_engine::io::geotiff::read_geotiff;
 use forefield_engine::{Grid, GridGeometry};
 use forefield_reference_tests::fixture;
 

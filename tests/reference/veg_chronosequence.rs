@@ -11,10 +11,10 @@
 //! temperature minimum) at the end is left out. Establishment is stochastic: ten seeds, at
 //! least nine in every window. That whole succession takes centuries is a fact of the trade.
 
-use forefield_engine::pft::GrowthForm;
+use forefield_engine::plants::pft::GrowthForm;
+use forefield_engine::plants::vegetation::VegetationParams;
+use forefield_engine::run::scenario::Scenario;
 use forefield_engine::sample;
-use forefield_engine::scenario::Scenario;
-use forefield_engine::vegetation::VegetationParams;
 use forefield_reference_tests::sample_run;
 
 fn median(values: &mut [i32]) -> Option<i32> {

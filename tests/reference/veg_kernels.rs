@@ -3,9 +3,8 @@
 //! exponential and Gaussian forms are the standard ones), the worked tail fractions of
 //! SCIENCE-CHECKS section 8, and the fast convolution against a direct one.
 
-use forefield_engine::dispersal::{
-    direct_convolution, direct_taps, Boundary, DispersalOperator, Kernel, KernelFamily,
-};
+use forefield_engine::plants::dispersal::{Boundary, DispersalOperator};
+use forefield_engine::plants::kernels::{direct_convolution, direct_taps, Kernel, KernelFamily};
 
 const FAMILIES: [KernelFamily; 3] = [
     KernelFamily::NegativeExponential,

@@ -6,10 +6,10 @@
 //! (McLachlan, Clark & Manos 2005, Ecology 86, from memory). SCIENCE-CHECKS section 10 turns
 //! these into the window 50-1000 m a^-1, pioneer trees faster than late-successional ones.
 
-use forefield_engine::exposure::ICE_FREE_AT_START;
-use forefield_engine::pft::GrowthForm;
-use forefield_engine::sample::vegetation_code;
-use forefield_engine::vegetation::{VegetationModel, VegetationParams};
+use forefield_engine::ice::exposure::ICE_FREE_AT_START;
+use forefield_engine::plants::pft::GrowthForm;
+use forefield_engine::plants::vegetation::{VegetationModel, VegetationParams};
+use forefield_engine::plants::vegetation_code;
 use forefield_reference_tests::local_geometry;
 
 const CELL_M: f64 = 25.0;

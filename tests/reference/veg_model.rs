@@ -4,12 +4,12 @@
 //! than primary succession (Chapin, Walker, Fastie & Sharman 1994, Ecol. Monogr.
 //! 64(2):149-175); invariants of covers (common practice, no source).
 
-use forefield_engine::disturbance::{Disturbance, DisturbanceKind};
-use forefield_engine::exposure::ICE_FREE_AT_START;
-use forefield_engine::grid::GridGeometry;
-use forefield_engine::pft::GrowthForm;
-use forefield_engine::sample::vegetation_code;
-use forefield_engine::vegetation::{VegetationModel, VegetationParams};
+use forefield_engine::base::grid::GridGeometry;
+use forefield_engine::ice::exposure::ICE_FREE_AT_START;
+use forefield_engine::plants::disturbance::{Disturbance, DisturbanceKind};
+use forefield_engine::plants::pft::GrowthForm;
+use forefield_engine::plants::vegetation::{VegetationModel, VegetationParams};
+use forefield_engine::plants::vegetation_code;
 use forefield_reference_tests::local_geometry;
 
 const CELL_M: f64 = 25.0;

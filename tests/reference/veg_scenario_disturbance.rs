@@ -6,10 +6,10 @@
 //! 1995, J. Ecol. 83:747-757); first pioneers on fresh till take about 7 years (Burga et al.
 //! 2010, Flora 205:561-576).
 
-use forefield_engine::coupled::CoupledSimulation;
-use forefield_engine::disturbance::scenario_disturbances;
+use forefield_engine::run::coupled::scenario_disturbances;
+use forefield_engine::run::coupled::CoupledSimulation;
+use forefield_engine::run::scenario::Scenario;
 use forefield_engine::sample::{self, vegetation_code};
-use forefield_engine::scenario::Scenario;
 use forefield_reference_tests::sample_run;
 
 /// Cover of all types summed, averaged over `cells`.

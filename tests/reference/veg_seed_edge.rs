@@ -8,8 +8,8 @@
 //! seed lost at the edge 14 % short. The check: mirrored within 10 %, lost short by more than
 //! one and a half times that.
 
-use forefield_engine::sample::vegetation_code;
-use forefield_engine::vegetation::{SeedEdge, VegetationModel, VegetationParams};
+use forefield_engine::plants::vegetation::{SeedEdge, VegetationModel, VegetationParams};
+use forefield_engine::plants::vegetation_code;
 use forefield_reference_tests::local_geometry;
 
 const CELL_M: f64 = 25.0;

@@ -11,7 +11,8 @@
 //! the kernel's 1-D marginal along the strip. Growth is Beverton-Holt,
 //! n' = R0 m / (1 + (R0 - 1) m) with m the dispersed density, whose linearisation is R0.
 
-use forefield_engine::dispersal::{Boundary, DispersalOperator, Kernel, KernelFamily};
+use forefield_engine::plants::dispersal::{Boundary, DispersalOperator};
+use forefield_engine::plants::kernels::{Kernel, KernelFamily};
 
 /// Front positions (m) per generation: the farthest point where density reaches 1/2,
 /// interpolated between cells.

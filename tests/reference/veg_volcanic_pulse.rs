@@ -9,10 +9,10 @@
 //! plant type's upper limit (the highest ground with 1 % cover) falls behind by half that
 //! while the pulse lasts, and each is back within 10 m by the end.
 
-use forefield_engine::climate::VolcanicPulse;
-use forefield_engine::coupled::CoupledSimulation;
+use forefield_engine::ice::climate::VolcanicPulse;
+use forefield_engine::run::coupled::CoupledSimulation;
+use forefield_engine::run::scenario::Scenario;
 use forefield_engine::sample::{self, vegetation_code::ICE};
-use forefield_engine::scenario::Scenario;
 use forefield_reference_tests::sample_run;
 
 struct End {

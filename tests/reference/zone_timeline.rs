@@ -5,10 +5,10 @@
 //! per-cell accessors (the cell history path). The CSV is read back by the `csv` crate
 //! (RFC 4180, Shafranovich 2005, section 2).
 
+use forefield_engine::export::zones::{zone_timeline, zone_timeline_csv, Zone};
 use forefield_engine::export::CAUTION;
-use forefield_engine::layers::STAGE_PALETTE;
-use forefield_engine::timeline::PlantQuantity;
-use forefield_engine::zones::{zone_timeline, zone_timeline_csv, Zone};
+use forefield_engine::run::timeline::PlantQuantity;
+use forefield_engine::view::layers::STAGE_PALETTE;
 
 use crate::export_fixture::{export_run, N_YEARS};
 

@@ -29,7 +29,9 @@ pub use ice::{
     outline_thickness as ice_outline, snow_redistribution,
 };
 pub use io::{align, geotiff, heightmap_png, outline};
-pub use plants::{dispersal, disturbance, establishment, pft, soil, succession, vegetation};
+pub use plants::{
+    dispersal, disturbance, establishment, kernels, pft, soil, succession, vegetation,
+};
 pub use run::{
     coupled, inputs as run_inputs, recorded as recorded_run, scenario, simulation, timeline,
 };

@@ -3,27 +3,27 @@
 
 mod schema;
 
+use forefield_engine::base::terrain::{self, Sun, TerrainDerivatives};
 use forefield_engine::export::csv_tables::{cell_history_csv, summary_csv, CellsCsv};
 use forefield_engine::export::geojson_shapes::{
     coordinates_note, ice_outlines_geojson, stage_polygons_geojson,
 };
 use forefield_engine::export::layer_geotiff::layer_geotiff;
 use forefield_engine::export::png_snapshot::snapshot_png;
+use forefield_engine::export::zones::{zone_timeline, zone_timeline_csv, Zone};
 use forefield_engine::export::{
     bed_renderer, layer_file_stem, layer_kind, ExportError, ExportMeta,
 };
-use forefield_engine::geotiff::{read_geotiff_with, ReadGrid, ReadOptions};
-use forefield_engine::heightmap_png::read_heightmap_png;
-use forefield_engine::layers::{self, LayerRenderer};
-use forefield_engine::outline::read_outline;
-use forefield_engine::recorded_run::RecordedRun;
-use forefield_engine::render::{render_shaded, Legend, ELEVATION_RAMP};
-use forefield_engine::run_inputs::{self, IceInput};
-use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::IceSimulation;
-use forefield_engine::terrain::{self, Sun, TerrainDerivatives};
-use forefield_engine::timeline::{PlantQuantity, Timeline};
-use forefield_engine::zones::{zone_timeline, zone_timeline_csv, Zone};
+use forefield_engine::io::geotiff::{read_geotiff_with, ReadGrid, ReadOptions};
+use forefield_engine::io::heightmap_png::read_heightmap_png;
+use forefield_engine::io::outline::read_outline;
+use forefield_engine::run::inputs::{self, IceInput};
+use forefield_engine::run::recorded::RecordedRun;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::simulation::IceSimulation;
+use forefield_engine::run::timeline::{PlantQuantity, Timeline};
+use forefield_engine::view::layers::{self, LayerRenderer};
+use forefield_engine::view::render::{render_shaded, Legend, ELEVATION_RAMP};
 use forefield_engine::{Grid, LoadError};
 use serde::Serialize;
 use wasm_bindgen::prelude::*;
@@ -334,13 +334,12 @@ impl Workspace {
                 let scenario = scenario_json
                     .and_then(|json| Scenario::from_json(&json).ok())
                     .unwrap_or_default();
-                let (_, note) =
-                    run_inputs::outline_thickness(&terrain.dem, geojson, name, &scenario)
-                        .map_err(|e| JsError::new(&e.to_string()))?;
+                let (_, note) = inputs::outline_thickness(&terrain.dem, geojson, name, &scenario)
+                    .map_err(|e| JsError::new(&e.to_string()))?;
                 vec![note]
             }
             IceInput::Thickness { bytes, name } => {
-                run_inputs::fit_ice_thickness(&terrain.dem.geometry, bytes, name)
+                inputs::fit_ice_thickness(&terrain.dem.geometry, bytes, name)
                     .map_err(to_js_error)?
                     .1
                     .into_iter()
@@ -357,7 +356,7 @@ impl Workspace {
     #[wasm_bindgen(js_name = checkDomain)]
     pub fn check_domain(&self, bytes: &[u8], name: &str) -> Result<JsValue, JsError> {
         let terrain = self.loaded_terrain()?;
-        let (grid, note) = run_inputs::fit_domain(&terrain.dem.geometry, bytes, name)
+        let (grid, note) = inputs::fit_domain(&terrain.dem.geometry, bytes, name)
             .map_err(|e| JsError::new(&e.to_string()))?;
         let inside = grid.values.iter().filter(|&&v| v > 0.0).count();
         if inside == 0 {
@@ -379,7 +378,7 @@ impl Workspace {
     pub fn check_vegetation(&self, bytes: &[u8], name: &str) -> Result<JsValue, JsError> {
         let terrain = self.loaded_terrain()?;
         let (_, note) =
-            run_inputs::fit_vegetation(&terrain.dem.geometry, bytes, name).map_err(to_js_error)?;
+            inputs::fit_vegetation(&terrain.dem.geometry, bytes, name).map_err(to_js_error)?;
         to_js(&note.into_iter().collect::<Vec<_>>())
     }
 
@@ -725,7 +724,7 @@ pub fn check_scenario(json: &str) -> Result<JsValue, JsError> {
 /// A scenario and the grids of a run, fitted onto the surface grid by the engine.
 struct RunInputs {
     scenario: Scenario,
-    grids: run_inputs::RunInputs,
+    grids: inputs::RunInputs,
 }
 
 /// Reads a run's inputs; `ice_name` ending in `.geojson` or `.json` makes `ice_bytes` a
@@ -741,7 +740,7 @@ fn read_run_inputs(
     let scenario =
         Scenario::from_json(scenario_json).map_err(|e| JsError::new(&format!("scenario: {e}")))?;
     let ice = ice_input(ice_bytes, ice_name)?;
-    let grids = run_inputs::read_run_inputs(
+    let grids = inputs::read_run_inputs(
         &scenario,
         surface_bytes,
         surface_name,
@@ -922,7 +921,7 @@ impl RunRecorder {
         let domain = match domain_bytes {
             Some(bytes) => {
                 let name = domain_name.unwrap_or_else(|| "glacier domain".to_string());
-                let (grid, _) = run_inputs::fit_domain(&grids.surface_m.geometry, &bytes, &name)
+                let (grid, _) = inputs::fit_domain(&grids.surface_m.geometry, &bytes, &name)
                     .map_err(|e| JsError::new(&e.to_string()))?;
                 Some(grid)
             }
@@ -1012,8 +1011,8 @@ impl RunRecorder {
 /// stepped by the page like [`IceRun`].
 #[wasm_bindgen]
 pub struct CoupledRun {
-    simulation: forefield_engine::coupled::CoupledSimulation,
-    rows: Vec<forefield_engine::coupled::CoupledYearSummary>,
+    simulation: forefield_engine::run::coupled::CoupledSimulation,
+    rows: Vec<forefield_engine::run::coupled::CoupledYearSummary>,
 }
 
 #[wasm_bindgen]
@@ -1039,7 +1038,7 @@ impl CoupledRun {
             ice_name,
             Some((vegetation_bytes, vegetation_name)),
         )?;
-        let simulation = forefield_engine::coupled::CoupledSimulation::new(
+        let simulation = forefield_engine::run::coupled::CoupledSimulation::new(
             &grids.bed_m,
             &grids.ice_thickness_m,
             &scenario,

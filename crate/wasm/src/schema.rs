@@ -7,11 +7,11 @@
 //! their default is the list of each default type's value, and their range is probed on the
 //! first type.
 
-use forefield_engine::dispersal::KernelFamily;
-use forefield_engine::mass_balance::DomainRule;
-use forefield_engine::pft::GrowthForm;
-use forefield_engine::scenario::{Scenario, ScenarioError};
-use forefield_engine::vegetation::SeedEdge;
+use forefield_engine::ice::mass_balance::DomainRule;
+use forefield_engine::plants::dispersal::KernelFamily;
+use forefield_engine::plants::pft::GrowthForm;
+use forefield_engine::plants::vegetation::SeedEdge;
+use forefield_engine::run::scenario::{Scenario, ScenarioError};
 use serde::Serialize;
 use serde_json::Value;
 
@@ -805,7 +805,7 @@ pub fn check_scenario(json: &str) -> Option<ScenarioProblem> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use forefield_engine::pft::PlantType;
+    use forefield_engine::plants::pft::PlantType;
 
     #[test]
     fn every_numeric_field_gets_its_range_and_a_default() {

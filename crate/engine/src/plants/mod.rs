@@ -5,6 +5,7 @@ pub mod dispersal;
 pub mod disturbance;
 pub mod error;
 pub mod establishment;
+pub mod kernels;
 pub mod pft;
 pub mod soil;
 pub mod succession;

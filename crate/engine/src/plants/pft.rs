@@ -8,9 +8,9 @@
 //! conifers. Every trait is editable; [`PlantType::validate`] checks each against a stated
 //! range and names field, value and range on failure.
 
-use crate::plants::dispersal::KernelFamily;
 pub(crate) use crate::plants::error::check_range;
 pub use crate::plants::error::VegetationError;
+use crate::plants::kernels::KernelFamily;
 use serde::{Deserialize, Serialize};
 
 /// Most plant types one scenario may define (fixed so yearly summaries need no allocation).

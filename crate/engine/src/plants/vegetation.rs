@@ -18,9 +18,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::base::grid::GridGeometry;
 use crate::ice::exposure::ICE_COVER_THRESHOLD_M;
-use crate::plants::dispersal::{
-    uniform_open, validate_kernel, Boundary, DispersalOperator, DispersalScratch, Kernel,
-};
+use crate::plants::dispersal::{Boundary, DispersalOperator, DispersalScratch};
 use crate::plants::disturbance::{
     Disturbance, DisturbanceKind, ScheduledDisturbance, SeedBankParams,
 };
@@ -28,6 +26,7 @@ use crate::plants::establishment::{
     larger, smaller, suitability, update_cover, update_established_cover, GrowingSeasonParams,
     TypeRates,
 };
+use crate::plants::kernels::{uniform_open, validate_kernel, Kernel};
 use crate::plants::pft::{check_range, GrowthForm, PlantType, VegetationError, MAX_TYPES};
 use crate::plants::soil::{develop, moisture_proxy, SoilParams};
 use crate::plants::succession::{stage, CellCover, StageThresholds, StageThresholds32};
