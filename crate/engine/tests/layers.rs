@@ -63,8 +63,36 @@ fn imports(src: &Path) -> Vec<Import> {
             continue;
         };
         let text = std::fs::read_to_string(&file).unwrap();
+        let siblings = sibling_modules(&file);
+        let mut in_tests = false;
         for (n, line) in text.lines().enumerate() {
             let code = line.split("//").next().unwrap_or("");
+            // A file's own tests see it through `super`; they come last, by convention.
+            in_tests |= code.trim_start().starts_with("#[cfg(test)]");
+            if !in_tests && from.1.is_some() {
+                for target in words_after(code, "super::") {
+                    let module = siblings.contains(&target).then_some(target);
+                    found.push(Import {
+                        from: from.clone(),
+                        to: (from.0.clone(), module),
+                        file: file.clone(),
+                        line: n + 1,
+                    });
+                }
+            }
+            if !in_tests && from.1.is_none() && !code.trim_start().starts_with("pub mod ") {
+                // A folder's mod.rs names its own files bare: `csv_tables::column_word`.
+                for sibling in &siblings {
+                    if uses_bare(code, sibling) {
+                        found.push(Import {
+                            from: from.clone(),
+                            to: (from.0.clone(), Some(sibling.clone())),
+                            file: file.clone(),
+                            line: n + 1,
+                        });
+                    }
+                }
+            }
             let mut rest = code;
             while let Some(at) = rest.find("crate::") {
                 rest = &rest[at + "crate::".len()..];
@@ -99,6 +127,58 @@ fn imports(src: &Path) -> Vec<Import> {
         }
     }
     found
+}
+
+/// The other modules of a file's folder (none for files at the root of `src`).
+fn sibling_modules(file: &Path) -> Vec<String> {
+    let dir = file.parent().unwrap();
+    if dir.file_name().is_some_and(|n| n == "src") {
+        return Vec::new();
+    }
+    let mut names: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "rs"))
+        .map(|p| p.file_stem().unwrap().to_string_lossy().into_owned())
+        .filter(|n| n != "mod")
+        .collect();
+    names.sort();
+    names
+}
+
+/// The identifiers right after each `prefix` in `code`, and inside a `prefix{a, b}` group.
+fn words_after(code: &str, prefix: &str) -> Vec<String> {
+    let mut out = Vec::new();
+    let mut rest = code;
+    while let Some(at) = rest.find(prefix) {
+        rest = &rest[at + prefix.len()..];
+        let group = rest
+            .strip_prefix('{')
+            .map(|g| g.split('}').next().unwrap_or(""));
+        let items: Vec<&str> = match group {
+            Some(g) => g.split(',').collect(),
+            None => vec![rest],
+        };
+        for item in items {
+            let item = item.trim();
+            let end = item
+                .find(|c: char| !(c.is_ascii_alphanumeric() || c == '_'))
+                .unwrap_or(item.len());
+            if end > 0 {
+                out.push(item[..end].to_string());
+            }
+        }
+    }
+    out
+}
+
+/// Whether `code` names `module::` on its own (not as the tail of a longer path).
+fn uses_bare(code: &str, module: &str) -> bool {
+    let needle = format!("{module}::");
+    code.match_indices(&needle).any(|(at, _)| {
+        let before = code[..at].chars().next_back();
+        !before.is_some_and(|c| c.is_ascii_alphanumeric() || c == '_' || c == ':')
+    })
 }
 
 /// A loop in the module graph, as the modules round it, if there is one.

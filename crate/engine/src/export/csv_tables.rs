@@ -10,6 +10,7 @@
 
 use std::fmt::Write as _;
 
+pub use super::column_word;
 use super::layer_geotiff::EXPOSED_BEFORE_START_VALUE;
 use super::{check_grid, check_run, one_line, ExportError, ExportMeta, CAUTION};
 use crate::base::grid::Grid;
@@ -30,19 +31,6 @@ pub fn csv_field(text: &str) -> String {
     } else {
         text.to_string()
     }
-}
-
-/// A name as part of a column name: lower case, runs of other characters as one `_`.
-pub fn column_word(name: &str) -> String {
-    let mut out = String::new();
-    for c in name.chars() {
-        if c.is_ascii_alphanumeric() {
-            out.push(c.to_ascii_lowercase());
-        } else if !out.ends_with('_') {
-            out.push('_');
-        }
-    }
-    out.trim_matches('_').to_string()
 }
 
 /// The comment lines every table opens with.

@@ -117,8 +117,7 @@ pub fn layer_kind(timeline: &Timeline, name: &str) -> Result<LayerKind, ExportEr
     let by_name = name.strip_prefix("cover:").and_then(|wanted| {
         let wanted = wanted.trim();
         timeline.type_names().iter().position(|type_name| {
-            type_name.eq_ignore_ascii_case(wanted)
-                || csv_tables::column_word(type_name) == csv_tables::column_word(wanted)
+            type_name.eq_ignore_ascii_case(wanted) || column_word(type_name) == column_word(wanted)
         })
     });
     let kind = by_name
@@ -155,7 +154,7 @@ pub fn layer_file_stem(timeline: &Timeline, kind: LayerKind) -> String {
             let words: Vec<String> = timeline
                 .type_names()
                 .iter()
-                .map(|n| csv_tables::column_word(n))
+                .map(|n| column_word(n))
                 .collect();
             match words.get(t) {
                 // Two names that write alike would overwrite each other's files.
@@ -254,4 +253,17 @@ pub(crate) fn one_line(text: &str) -> String {
     text.chars()
         .map(|c| if c.is_control() { ' ' } else { c })
         .collect()
+}
+
+/// A name as part of a column name: lower case, runs of other characters as one `_`.
+pub fn column_word(name: &str) -> String {
+    let mut out = String::new();
+    for c in name.chars() {
+        if c.is_ascii_alphanumeric() {
+            out.push(c.to_ascii_lowercase());
+        } else if !out.ends_with('_') {
+            out.push('_');
+        }
+    }
+    out.trim_matches('_').to_string()
 }

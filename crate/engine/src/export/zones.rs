@@ -564,7 +564,7 @@ pub fn zone_timeline_csv(
 mod tests {
     use super::*;
     use crate::ice::exposure::ICE_COVER_THRESHOLD_M;
-    use crate::run::timeline::TimelineRecorder;
+    use crate::run::recorder::TimelineRecorder;
 
     const N_COLS: usize = 8;
     const N_ROWS: usize = 6;

@@ -3,6 +3,8 @@
 pub mod coupled;
 pub mod inputs;
 pub mod recorded;
+pub mod recorder;
 pub mod scenario;
 pub mod simulation;
 pub mod timeline;
+pub mod timeline_bytes;

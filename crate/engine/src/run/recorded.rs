@@ -8,10 +8,11 @@ use thiserror::Error;
 use crate::base::grid::Grid;
 use crate::plants::vegetation::VegetationYearSummary;
 use crate::run::coupled::{CoupledError, CoupledSimulation};
+use crate::run::recorder::TimelineRecorder;
 use crate::run::scenario::Scenario;
 use crate::run::simulation::{IceSimulation, SimulationError, YearSummary};
 use crate::run::timeline::{
-    RunStart, Timeline, TimelineRecorder, DEFAULT_COVER_BUDGET_BYTES, DEFAULT_FRAME_BUDGET_BYTES,
+    RunStart, Timeline, DEFAULT_COVER_BUDGET_BYTES, DEFAULT_FRAME_BUDGET_BYTES,
     DEFAULT_STAGE_BUDGET_BYTES,
 };
 

@@ -565,7 +565,8 @@ pub fn legend(timeline: &Timeline, kind: LayerKind) -> LayerLegend {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::run::timeline::{TimelineRecorder, DEFAULT_FRAME_BUDGET_BYTES};
+    use crate::run::recorder::TimelineRecorder;
+    use crate::run::timeline::DEFAULT_FRAME_BUDGET_BYTES;
     use crate::view::render::cie_lightness as lightness;
 
     fn check_monotonic(ramp: ColorRamp, rising: bool) {
