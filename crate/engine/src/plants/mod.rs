@@ -1,12 +1,16 @@
 //! The plant model: functional types, dispersal, establishment, soil, succession, disturbances
 //! and the yearly colonisation step.
 
+pub mod cell_update;
+pub mod chunks;
 pub mod dispersal;
 pub mod disturbance;
+pub mod draws;
 pub mod error;
 pub mod establishment;
 pub mod kernels;
 pub mod pft;
+pub mod seed_rain;
 pub mod soil;
 pub mod succession;
 pub mod vegetation;

@@ -12,23 +12,21 @@
 //! loop carries no generator state. Cells are updated in blocks of [`BLOCK`] with every
 //! type passing over a block before the next, so the per-cell sums stay in cache.
 
-use rand::{Rng, SeedableRng};
+use rand::SeedableRng;
 use rand_pcg::Pcg32;
 use serde::{Deserialize, Serialize};
 
 use crate::base::grid::GridGeometry;
 use crate::ice::exposure::ICE_COVER_THRESHOLD_M;
+use crate::plants::chunks::{all_positive, chunk_max, chunk_max_negated};
 use crate::plants::dispersal::{Boundary, DispersalOperator, DispersalScratch};
 use crate::plants::disturbance::{
     Disturbance, DisturbanceKind, ScheduledDisturbance, SeedBankParams,
 };
-use crate::plants::establishment::{
-    larger, smaller, suitability, update_cover, update_established_cover, GrowingSeasonParams,
-    TypeRates,
-};
-use crate::plants::kernels::{uniform_open, validate_kernel, Kernel};
+use crate::plants::establishment::{suitability, GrowingSeasonParams, TypeRates};
+use crate::plants::kernels::{validate_kernel, Kernel};
 use crate::plants::pft::{check_range, GrowthForm, PlantType, VegetationError, MAX_TYPES};
-use crate::plants::soil::{develop, moisture_proxy, SoilParams};
+use crate::plants::soil::{moisture_proxy, SoilParams};
 use crate::plants::succession::{stage, CellCover, StageThresholds, StageThresholds32};
 use crate::plants::vegetation_code;
 
@@ -43,7 +41,7 @@ pub const MAX_LONG_DISTANCE_EVENTS: usize = 256;
 pub const MAX_AGE_A: f32 = 65_535.0;
 
 /// Cover below which a type counts as gone from a cell.
-const EXTINCT_COVER: f32 = 1e-5;
+pub(super) const EXTINCT_COVER: f32 = 1e-5;
 
 /// The vegetation block of a scenario.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -169,13 +167,13 @@ pub struct VegetationYearSummary {
 
 /// Stage-grid start: cover per growth form, soil index and tree age per stage code
 /// (typical plot values, common practice, no source).
-struct StageStart {
-    cover: [f32; 4],
-    soil: f32,
-    tree_age_a: f32,
+pub(super) struct StageStart {
+    pub(super) cover: [f32; 4],
+    pub(super) soil: f32,
+    pub(super) tree_age_a: f32,
 }
 
-const STAGE_START: [StageStart; N_STAGES] = [
+pub(super) const STAGE_START: [StageStart; N_STAGES] = [
     StageStart {
         cover: [0.0, 0.0, 0.0, 0.0],
         soil: 0.0,
@@ -213,7 +211,7 @@ const STAGE_START: [StageStart; N_STAGES] = [
     },
 ];
 
-fn form_index(form: GrowthForm) -> usize {
+pub(super) fn form_index(form: GrowthForm) -> usize {
     match form {
         GrowthForm::PioneerHerb => 0,
         GrowthForm::Graminoid => 1,
@@ -224,86 +222,86 @@ fn form_index(form: GrowthForm) -> usize {
 
 /// Per-type constants of the yearly loop.
 #[derive(Clone, Debug)]
-struct TypeSetup {
-    rates: TypeRates,
-    form: GrowthForm,
-    nitrogen_fixer: bool,
-    age_first_seed_a: f32,
+pub(super) struct TypeSetup {
+    pub(super) rates: TypeRates,
+    pub(super) form: GrowthForm,
+    pub(super) nitrogen_fixer: bool,
+    pub(super) age_first_seed_a: f32,
     /// Seeds per cell per unit cover per year.
-    seeds_per_cover: f32,
-    long_distance_share: f32,
-    long_distance_kernel: Kernel,
-    operator: DispersalOperator,
+    pub(super) seeds_per_cover: f32,
+    pub(super) long_distance_share: f32,
+    pub(super) long_distance_kernel: Kernel,
+    pub(super) operator: DispersalOperator,
 }
 
 /// The yearly stepper: state, site constants and scratch memory.
 #[derive(Clone, Debug)]
 pub struct VegetationModel {
-    n_cols: usize,
-    n_rows: usize,
-    cell_size_m: f64,
-    cell_area_km2: f64,
-    state: VegetationState,
-    valid: Vec<bool>,
-    temp_base_c: Vec<f32>,
-    slope_deg: Vec<f32>,
-    soil_site_rate: Vec<f32>,
-    soil: SoilParams,
-    fixer_boost: f32,
-    thresholds: StageThresholds32,
-    seed_bank: SeedBankParams,
-    types: Vec<TypeSetup>,
+    pub(super) n_cols: usize,
+    pub(super) n_rows: usize,
+    pub(super) cell_size_m: f64,
+    pub(super) cell_area_km2: f64,
+    pub(super) state: VegetationState,
+    pub(super) valid: Vec<bool>,
+    pub(super) temp_base_c: Vec<f32>,
+    pub(super) slope_deg: Vec<f32>,
+    pub(super) soil_site_rate: Vec<f32>,
+    pub(super) soil: SoilParams,
+    pub(super) fixer_boost: f32,
+    pub(super) thresholds: StageThresholds32,
+    pub(super) seed_bank: SeedBankParams,
+    pub(super) types: Vec<TypeSetup>,
     /// Type indices, tallest first.
-    order: Vec<usize>,
+    pub(super) order: Vec<usize>,
     /// Soil temperature factor at each cell's base temperature (no anomaly).
-    soil_temp_factor: Vec<f32>,
+    pub(super) soil_temp_factor: Vec<f32>,
     /// Nodata cells (always stage ice, left out of the summary).
-    n_invalid: usize,
+    pub(super) n_invalid: usize,
     /// Seed from which each year's establishment draws are keyed.
-    establishment_key: u64,
-    scratch: DispersalScratch,
+    pub(super) establishment_key: u64,
+    pub(super) scratch: DispersalScratch,
     /// One row of seed production.
-    production_row: Vec<f32>,
-    rain: Vec<f32>,
-    row_production: Vec<f64>,
+    pub(super) production_row: Vec<f32>,
+    pub(super) rain: Vec<f32>,
+    pub(super) row_production: Vec<f64>,
     /// Per cell and year: [`CELL_OPEN`], [`CELL_FRESH`] or [`CELL_CLOSED`] (`f32` codes,
     /// so the cell loop has one lane width).
-    cell_kind: Vec<f32>,
+    pub(super) cell_kind: Vec<f32>,
     /// Per-cell sums of one block over the types updated so far this year: all cover (the
     /// canopy the next shorter type grows under), graminoid, woody and tree cover, oldest
     /// tree age.
-    block_sums: [Vec<f32>; 5],
-    rng: Pcg32,
-    disturbances: Vec<ScheduledDisturbance>,
+    pub(super) block_sums: [Vec<f32>; 5],
+    pub(super) rng: Pcg32,
+    pub(super) disturbances: Vec<ScheduledDisturbance>,
     /// Per chunk of [`CHUNK`] cells: warmest base temperature and gentlest slope.
-    chunk_max_temp_c: Vec<f32>,
-    chunk_min_slope_deg: Vec<f32>,
+    pub(super) chunk_max_temp_c: Vec<f32>,
+    pub(super) chunk_min_slope_deg: Vec<f32>,
     /// Per chunk and year: richest soil of its open or fresh cells (-1 if none).
-    chunk_max_soil: Vec<f32>,
+    pub(super) chunk_max_soil: Vec<f32>,
     /// Per type and chunk (type-major): whether the type had cover there last year.
-    chunk_occupied: Vec<bool>,
+    pub(super) chunk_occupied: Vec<bool>,
     /// Per type and chunk: whether the type had cover in every cell there last year.
-    chunk_established: Vec<bool>,
+    pub(super) chunk_established: Vec<bool>,
     /// Per chunk and year: whether every cell is open (neither fresh nor closed).
-    chunk_open: Vec<bool>,
+    pub(super) chunk_open: Vec<bool>,
     /// Per row: whether the type being dispersed needs updating in some chunk of it.
-    rows_needed: Vec<bool>,
+    pub(super) rows_needed: Vec<bool>,
 }
 
 /// Cells per block of the yearly update.
-const BLOCK: usize = 1024;
+pub(super) const BLOCK: usize = 1024;
 
 /// Cells per chunk: a type is skipped in a chunk where it had no cover last year and no
 /// cell can take it this year (too cold, too poor or too steep everywhere), where the
 /// update would leave every value as it is.
-const CHUNK: usize = 64;
+pub(super) const CHUNK: usize = 64;
 
 /// Ice-free ground that was ice-free last year too.
-const CELL_OPEN: f32 = 0.0;
+pub(super) const CELL_OPEN: f32 = 0.0;
 /// Ground the ice left this year: no plants, no soil yet, colonisable.
-const CELL_FRESH: f32 = 1.0;
+pub(super) const CELL_FRESH: f32 = 1.0;
 /// Under ice or nodata: nothing grows.
-const CELL_CLOSED: f32 = 2.0;
+pub(super) const CELL_CLOSED: f32 = 2.0;
 
 impl VegetationModel {
     /// Builds the model and its initial state. `elevation_m` is the ground (bed) elevation
@@ -607,7 +605,7 @@ impl VegetationModel {
         self.temp_base_c[cell]
     }
 
-    fn cell_cover(&self, i: usize) -> CellCover {
+    pub(super) fn cell_cover(&self, i: usize) -> CellCover {
         let n = self.state.n_cells;
         let mut cover = CellCover::default();
         for (t, setup) in self.types.iter().enumerate() {
@@ -694,243 +692,9 @@ impl VegetationModel {
         }
     }
 
-    /// Whether type `t` needs updating in `chunk` this year: it is there, or some cell of
-    /// the chunk may be warm, developed and flat enough for it. Reads this year's soil.
-    fn chunk_grows(&self, t: usize, chunk: usize, anomaly_c: f32) -> bool {
-        chunk_grows(
-            &self.types[t].rates,
-            self.chunk_occupied[t * self.chunk_open.len() + chunk],
-            self.chunk_max_temp_c[chunk] + anomaly_c,
-            self.chunk_max_soil[chunk],
-            self.chunk_min_slope_deg[chunk],
-        )
-    }
-
-    /// Sorts cells into open, freshly exposed and closed (ice or nodata) for this year and
-    /// develops the soil one year: ice and fresh ground start from nothing (glacial scour),
-    /// nitrogen fixers act through last year's cover. One pass, chunk by chunk, that also
-    /// records each chunk's richest soil and whether it is all open: the layers it reads
-    /// are far beyond the caches on large grids.
-    fn classify_and_develop_soil(
-        &mut self,
-        year: i32,
-        ice_thickness_m: &[f32],
-        year_exposed: &[i32],
-        anomaly_c: f32,
-    ) {
-        let n = self.state.n_cells;
-        // The Q10 response factors into a per-cell part and one for the year's anomaly.
-        let year_factor = libm::powf(self.soil.q10 as f32, anomaly_c / 10.0);
-        let boost = self.fixer_boost;
-        for (chunk, start) in (0..n).step_by(CHUNK).enumerate() {
-            let cells = start..(start + CHUNK).min(n);
-            let len = cells.len();
-            let kinds = &mut self.cell_kind[cells.clone()];
-            for (((kind, &ice), &exposed), &valid) in kinds
-                .iter_mut()
-                .zip(&ice_thickness_m[cells.clone()])
-                .zip(&year_exposed[cells.clone()])
-                .zip(&self.valid[cells.clone()])
-            {
-                *kind = if !valid || ice >= ICE_COVER_THRESHOLD_M {
-                    CELL_CLOSED
-                } else if exposed == year {
-                    CELL_FRESH
-                } else {
-                    CELL_OPEN
-                };
-            }
-            let mut fixer = [0.0f32; CHUNK];
-            for (t, setup) in self.types.iter().enumerate() {
-                if setup.nitrogen_fixer {
-                    let cover = &self.state.cover[t * n + cells.start..t * n + cells.end];
-                    for (f, &c) in fixer[..len].iter_mut().zip(cover) {
-                        *f += c;
-                    }
-                }
-            }
-            let mut bound = [0.0f32; CHUNK];
-            for (((((soil, &kind), &site), &temp_factor), &fixer), b) in self.state.soil
-                [cells.clone()]
-            .iter_mut()
-            .zip(kinds.iter())
-            .zip(&self.soil_site_rate[cells.clone()])
-            .zip(&self.soil_temp_factor[cells.clone()])
-            .zip(&fixer[..len])
-            .zip(&mut bound[..len])
-            {
-                let (start, fixer) = if kind == CELL_OPEN {
-                    (*soil, fixer)
-                } else {
-                    (0.0, 0.0)
-                };
-                let developed =
-                    develop(start, site, temp_factor * year_factor, 1.0 + boost * fixer);
-                *soil = if kind == CELL_CLOSED { 0.0 } else { developed };
-                *b = if kind == CELL_CLOSED { -1.0 } else { *soil };
-            }
-            self.chunk_max_soil[chunk] = chunk_max(&bound[..len]);
-            self.chunk_open[chunk] = kinds.iter().fold(true, |all, &k| all & (k == CELL_OPEN));
-        }
-    }
-
-    /// One year of every type in the cells of `cells`, tallest first, each under the
-    /// canopy of the taller types already updated; then the stage of each cell. Adds each
-    /// type's cover to `cover_sums` and each stage's cells to `stage_cells` (nodata as ice).
-    /// First establishment in an empty cell is drawn from a counter-based hash of seed,
-    /// year, type and cell (Salmon et al. 2011, "Parallel random numbers: as easy as 1, 2,
-    /// 3", SC'11), so the cell loop needs no sequential generator state and vectorises.
-    fn update_block(
-        &mut self,
-        cells: std::ops::Range<usize>,
-        year: i32,
-        anomaly_c: f32,
-        cover_sums: &mut [f64; MAX_TYPES],
-        stage_cells: &mut [usize; N_STAGES],
-    ) {
-        let n = self.state.n_cells;
-        let len = cells.len();
-        let sums = &mut self.block_sums;
-        for buffer in sums.iter_mut() {
-            buffer[..len].fill(0.0);
-        }
-        let [canopy, graminoid, woody, tree, oldest] = sums;
-        for &t in &self.order {
-            let setup = &self.types[t];
-            let form = setup.form;
-            let rates = &setup.rates;
-            let key = draw_key(self.establishment_key, year, t);
-            let n_chunks = n.div_ceil(CHUNK);
-            let first_chunk = cells.start / CHUNK;
-            // Per chunk: skipped, updated in full, or updated without establishment draws
-            // (the type is in every cell and every cell is open, so no draw is used). A
-            // chunk where the type is absent is skipped too when no cell's draw can succeed.
-            const SKIP: u8 = 0;
-            const FULL: u8 = 1;
-            const ESTABLISHED: u8 = 2;
-            let mut kinds = [SKIP; BLOCK / CHUNK];
-            for (k, kind) in kinds
-                .iter_mut()
-                .enumerate()
-                .take(cells.len().div_ceil(CHUNK))
-            {
-                let chunk = first_chunk + k;
-                let grows = chunk_grows(
-                    rates,
-                    self.chunk_occupied[t * n_chunks + chunk],
-                    self.chunk_max_temp_c[chunk] + anomaly_c,
-                    self.chunk_max_soil[chunk],
-                    self.chunk_min_slope_deg[chunk],
-                );
-                let occupied = self.chunk_occupied[t * n_chunks + chunk];
-                *kind = if !grows {
-                    SKIP
-                } else if self.chunk_established[t * n_chunks + chunk] && self.chunk_open[chunk] {
-                    ESTABLISHED
-                } else if occupied {
-                    FULL
-                } else {
-                    let chunk_cells = chunk * CHUNK..((chunk + 1) * CHUNK).min(n);
-                    let rain = &self.rain[t * n + chunk_cells.start..t * n + chunk_cells.end];
-                    if may_establish(
-                        key,
-                        chunk_cells.start as u32,
-                        rain,
-                        rates.establishment_per_seed,
-                    ) {
-                        FULL
-                    } else {
-                        SKIP
-                    }
-                };
-            }
-            let kind_of = |chunk: usize| kinds[chunk - first_chunk];
-            let mut start = cells.start;
-            while start < cells.end {
-                let kind = kind_of(start / CHUNK);
-                if kind == SKIP {
-                    start = (start + CHUNK).min(cells.end);
-                    continue;
-                }
-                // One call over the whole run of chunks of the same kind.
-                let mut end = (start + CHUNK).min(cells.end);
-                while end < cells.end && kind_of(end / CHUNK) == kind {
-                    end = (end + CHUNK).min(cells.end);
-                }
-                let local = start - cells.start..end - cells.start;
-                let layer = t * n + start..t * n + end;
-                // One loop per growth form, so each adds only to the sums it counts in.
-                let grow = match (kind == ESTABLISHED, form) {
-                    (true, GrowthForm::PioneerHerb) => grow_cells::<true, HERB>,
-                    (true, GrowthForm::Graminoid) => grow_cells::<true, GRAMINOID>,
-                    (true, GrowthForm::Shrub) => grow_cells::<true, SHRUB>,
-                    (true, GrowthForm::Tree) => grow_cells::<true, TREE>,
-                    (false, GrowthForm::PioneerHerb) => grow_cells::<false, HERB>,
-                    (false, GrowthForm::Graminoid) => grow_cells::<false, GRAMINOID>,
-                    (false, GrowthForm::Shrub) => grow_cells::<false, SHRUB>,
-                    (false, GrowthForm::Tree) => grow_cells::<false, TREE>,
-                };
-                grow(
-                    rates,
-                    key,
-                    start as u32,
-                    anomaly_c,
-                    CellInputs {
-                        kind: &self.cell_kind[start..end],
-                        temp_base_c: &self.temp_base_c[start..end],
-                        soil: &self.state.soil[start..end],
-                        slope_deg: &self.slope_deg[start..end],
-                        rain: &self.rain[layer.clone()],
-                    },
-                    &mut self.state.cover[layer.clone()],
-                    &mut self.state.age_a[layer.clone()],
-                    FormSums {
-                        canopy: &mut canopy[local.clone()],
-                        graminoid: &mut graminoid[local.clone()],
-                        woody: &mut woody[local.clone()],
-                        tree: &mut tree[local.clone()],
-                        oldest_tree_age_a: &mut oldest[local],
-                    },
-                );
-                for (k, chunk_cells) in self.state.cover[layer].chunks(CHUNK).enumerate() {
-                    let chunk_cover = lane_sum(chunk_cells);
-                    let chunk = t * n_chunks + start / CHUNK + k;
-                    self.chunk_occupied[chunk] = chunk_cover > 0.0;
-                    self.chunk_established[chunk] = all_positive(chunk_cells);
-                    cover_sums[t] += chunk_cover;
-                }
-                start = end;
-            }
-        }
-        let th = self.thresholds;
-        let stages = &mut self.state.stage[cells.clone()];
-        let kind = &self.cell_kind[cells];
-        for i in 0..len {
-            let cover = CellCover {
-                total: canopy[i],
-                graminoid: graminoid[i],
-                woody: woody[i],
-                tree: tree[i],
-                oldest_tree_age_a: oldest[i],
-            };
-            let code = stage(&cover, &th);
-            stages[i] = if kind[i] == CELL_CLOSED {
-                vegetation_code::ICE
-            } else {
-                code
-            };
-        }
-        // One counting pass per stage over bytes; the sums of 0/1 vectorise, a histogram's
-        // scattered increments would not.
-        for (k, count) in stage_cells.iter_mut().enumerate() {
-            let matches: u32 = stages.iter().map(|&c| u32::from(c == k as u8)).sum();
-            *count += matches as usize;
-        }
-    }
-
     /// Clears cover (and for debris flows soil) where this year's events strike; burns
     /// put the burnt types' seed into the bank.
-    fn strike_disturbances(&mut self, year: i32) {
+    pub(super) fn strike_disturbances(&mut self, year: i32) {
         let n = self.state.n_cells;
         let years_of_seed = self.seed_bank.years_of_seed as f32;
         let per_year = years_of_seed / self.seed_bank.duration_a as f32;
@@ -956,391 +720,4 @@ impl VegetationModel {
             }
         }
     }
-
-    /// Seed rain of type `t` into its rain layer: local kernel, seed bank, long-distance
-    /// events. Returns the number of events drawn.
-    ///
-    /// The local kernel is exact only in the rows of `rows_needed`; no other row's rain
-    /// is read this year.
-    fn disperse(&mut self, t: usize, year: i32) -> u32 {
-        let n = self.state.n_cells;
-        let n_cols = self.n_cols;
-        let setup = &self.types[t];
-        let cover = &self.state.cover[t * n..(t + 1) * n];
-        let ages = &self.state.age_a[t * n..(t + 1) * n];
-        let local = setup.seeds_per_cover * (1.0 - setup.long_distance_share);
-        // Production row by row, straight into the filters' pyramid (a whole layer would
-        // go through memory twice more), with the running total per row for the
-        // long-distance draws. The operator's first pass visits every row in order, later
-        // ones some rows in order, so the totals come out the same each time.
-        let row_production = &mut self.row_production;
-        let n_chunks = n.div_ceil(CHUNK);
-        let occupied = &self.chunk_occupied[t * n_chunks..(t + 1) * n_chunks];
-        let mut source = |row: usize, out: &mut [f32]| {
-            let cells = row * n_cols..(row + 1) * n_cols;
-            production_row(
-                setup.age_first_seed_a,
-                local,
-                cover,
-                ages,
-                occupied,
-                cells,
-                out,
-            );
-            let before = if row > 0 {
-                row_production[row - 1]
-            } else {
-                0.0
-            };
-            row_production[row] = before + lane_sum(out);
-        };
-        let rain = &mut self.rain[t * n..(t + 1) * n];
-        if self.rows_needed.iter().any(|&r| r) {
-            setup.operator.apply_rows_from(
-                &mut source,
-                rain,
-                &mut self.scratch,
-                Some(&self.rows_needed),
-            );
-        } else {
-            // No row's rain is read this year; the total still sets the long-distance draws.
-            let row_buf = &mut self.production_row[..];
-            for row in 0..self.n_rows {
-                source(row, row_buf);
-            }
-        }
-        let total = self.row_production[self.n_rows - 1];
-        let duration = self.seed_bank.duration_a.round() as i32;
-        for scheduled in &self.disturbances {
-            let since = year - scheduled.event.year;
-            if scheduled.event.kind != DisturbanceKind::Burn || since < 0 || since >= duration {
-                continue;
-            }
-            let n_event = scheduled.event.cells.len();
-            for (j, &cell) in scheduled.event.cells.iter().enumerate() {
-                rain[cell as usize] += scheduled.bank_seeds[t * n_event + j];
-            }
-        }
-        // Long-distance events: expected recruits on ideal free ground, drawn as Poisson
-        // events from sources in proportion to their seed.
-        let share = f64::from(setup.long_distance_share);
-        let per_seed = f64::from(setup.rates.establishment_per_seed);
-        if total <= 0.0 || share <= 0.0 || per_seed <= 0.0 {
-            return 0;
-        }
-        let expected = total / (1.0 - share) * share * per_seed;
-        let (n_events, recruits_per_event) = if expected <= MAX_LONG_DISTANCE_EVENTS as f64 {
-            (poisson(&mut self.rng, expected), 1.0)
-        } else {
-            (
-                MAX_LONG_DISTANCE_EVENTS,
-                expected / MAX_LONG_DISTANCE_EVENTS as f64,
-            )
-        };
-        let seeds = (recruits_per_event / per_seed) as f32;
-        for _ in 0..n_events {
-            let target = uniform_open(&mut self.rng) * total;
-            let row = self
-                .row_production
-                .partition_point(|&s| s < target)
-                .min(self.n_rows - 1);
-            let before = if row > 0 {
-                self.row_production[row - 1]
-            } else {
-                0.0
-            };
-            // The source column: where the row's running production reaches the target.
-            let mut left = (target - before) as f32;
-            let mut col = n_cols - 1;
-            let cover = &self.state.cover[t * n..(t + 1) * n];
-            let ages = &self.state.age_a[t * n..(t + 1) * n];
-            let occupied = &self.chunk_occupied[t * n_chunks..(t + 1) * n_chunks];
-            let cells = row * n_cols..(row + 1) * n_cols;
-            let mut start = cells.start;
-            'search: while start < cells.end {
-                let chunk = start / CHUNK;
-                let end = ((chunk + 1) * CHUNK).min(cells.end);
-                // Chunks without the type produce nothing: skipping them leaves `left` as
-                // it is.
-                if occupied[chunk] {
-                    for (i, (&c, &age)) in
-                        cover[start..end].iter().zip(&ages[start..end]).enumerate()
-                    {
-                        left -= seed_of(c, age, setup.age_first_seed_a, local);
-                        if left <= 0.0 {
-                            col = start + i - cells.start;
-                            break 'search;
-                        }
-                    }
-                }
-                start = end;
-            }
-            let distance =
-                setup.long_distance_kernel.sample_distance_m(&mut self.rng) / self.cell_size_m;
-            let angle = std::f64::consts::TAU * uniform_open(&mut self.rng);
-            // A jump off the grid is lost whatever the seed edge: folded back, kilometre
-            // jumps on a grid a few kilometres across would return the forefield's own
-            // colonists' seed as if it came from the land beyond.
-            let x = col as f64 + 0.5 + distance * libm::cos(angle);
-            let y = row as f64 + 0.5 + distance * libm::sin(angle);
-            if x >= 0.0 && y >= 0.0 && x < n_cols as f64 && y < self.n_rows as f64 {
-                rain[y as usize * n_cols + x as usize] += seeds;
-            }
-        }
-        n_events as u32
-    }
-}
-
-/// Seed a cell sends out in a year: its cover times seed per cover, once the type is old
-/// enough to seed.
-#[inline]
-fn seed_of(cover: f32, age_a: f32, first_seed_age_a: f32, per_cover: f32) -> f32 {
-    if age_a >= first_seed_age_a {
-        cover * per_cover
-    } else {
-        0.0
-    }
-}
-
-/// Seed leaving each of the cells `cells` of one type's `cover` and `ages` layers: cover
-/// times seed per cover where the type is old enough to seed. Chunks the type is absent
-/// from (`occupied`, one flag a chunk) give zeros without reading the layers, which on
-/// large grids are far beyond the caches.
-fn production_row(
-    first_seed_age_a: f32,
-    per_cover: f32,
-    cover: &[f32],
-    ages: &[f32],
-    occupied: &[bool],
-    cells: std::ops::Range<usize>,
-    out: &mut [f32],
-) {
-    let mut start = cells.start;
-    while start < cells.end {
-        let chunk = start / CHUNK;
-        let end = ((chunk + 1) * CHUNK).min(cells.end);
-        let out = &mut out[start - cells.start..end - cells.start];
-        if occupied[chunk] {
-            for ((p, &c), &age) in out
-                .iter_mut()
-                .zip(&cover[start..end])
-                .zip(&ages[start..end])
-            {
-                *p = seed_of(c, age, first_seed_age_a, per_cover);
-            }
-        } else {
-            out.fill(0.0);
-        }
-        start = end;
-    }
-}
-
-/// A Poisson draw (Knuth's product method below 30, a rounded normal above).
-fn poisson<R: Rng + ?Sized>(rng: &mut R, mean: f64) -> usize {
-    if mean < 30.0 {
-        let limit = libm::exp(-mean);
-        let mut product = uniform_open(rng);
-        let mut k = 0;
-        while product > limit {
-            product *= uniform_open(rng);
-            k += 1;
-        }
-        k
-    } else {
-        let z = (-2.0 * libm::log(uniform_open(rng))).sqrt()
-            * libm::cos(std::f64::consts::TAU * uniform_open(rng));
-        (mean + mean.sqrt() * z).round().max(0.0) as usize
-    }
-}
-
-/// Per-cell layers one type's update reads.
-struct CellInputs<'a> {
-    kind: &'a [f32],
-    temp_base_c: &'a [f32],
-    soil: &'a [f32],
-    slope_deg: &'a [f32],
-    rain: &'a [f32],
-}
-
-/// Per-cell sums over the types updated so far this year.
-struct FormSums<'a> {
-    canopy: &'a mut [f32],
-    graminoid: &'a mut [f32],
-    woody: &'a mut [f32],
-    tree: &'a mut [f32],
-    oldest_tree_age_a: &'a mut [f32],
-}
-
-/// The cell loop of one type in [`VegetationModel::update_block`], over slices of one length so that the
-/// compiler drops bounds checks.
-#[allow(clippy::too_many_arguments)]
-fn grow_cells<const ESTABLISHED: bool, const FORM: u8>(
-    rates: &TypeRates,
-    key: u32,
-    first_cell: u32,
-    anomaly_c: f32,
-    input: CellInputs,
-    cover: &mut [f32],
-    ages: &mut [f32],
-    sums: FormSums,
-) {
-    let n = cover.len();
-    let (kind, temp_base_c, soil, slope_deg, rain) = (
-        &input.kind[..n],
-        &input.temp_base_c[..n],
-        &input.soil[..n],
-        &input.slope_deg[..n],
-        &input.rain[..n],
-    );
-    let ages = &mut ages[..n];
-    let canopy = &mut sums.canopy[..n];
-    let graminoid = &mut sums.graminoid[..n];
-    let woody = &mut sums.woody[..n];
-    let tree = &mut sums.tree[..n];
-    let oldest = &mut sums.oldest_tree_age_a[..n];
-    for i in 0..n {
-        let kind = kind[i];
-        let suit = suitability(rates, temp_base_c[i] + anomaly_c, soil[i], slope_deg[i]);
-        let suit = if kind == CELL_CLOSED { 0.0 } else { suit };
-        // Unconditional loads: a load inside a branch would need masked loads, which
-        // SSE2 and wasm SIMD lack, and the loop would stay scalar.
-        let (last_cover, last_age) = (cover[i], ages[i]);
-        let c0 = if kind == CELL_OPEN { last_cover } else { 0.0 };
-        let age0 = if kind == CELL_OPEN { last_age } else { 0.0 };
-        let under = canopy[i];
-        let c = if ESTABLISHED {
-            update_established_cover(rates, c0, suit, under, rain[i])
-        } else {
-            let uniform = hash_uniform(key ^ (first_cell + i as u32));
-            update_cover(rates, c0, suit, under, rain[i], uniform)
-        };
-        let gone = c < EXTINCT_COVER;
-        let c = if gone { 0.0 } else { c };
-        let age = if gone {
-            0.0
-        } else {
-            smaller(age0 + 1.0, MAX_AGE_A)
-        };
-        cover[i] = c;
-        ages[i] = age;
-        canopy[i] = under + c;
-        if FORM == GRAMINOID {
-            graminoid[i] += c;
-        }
-        if FORM == SHRUB || FORM == TREE {
-            woody[i] += c;
-        }
-        if FORM == TREE {
-            tree[i] += c;
-            let tree_age = if c >= 0.05 { age } else { 0.0 };
-            oldest[i] = larger(oldest[i], tree_age);
-        }
-    }
-}
-
-/// Growth forms as [`grow_cells`] parameters.
-const HERB: u8 = 0;
-const GRAMINOID: u8 = 1;
-const SHRUB: u8 = 2;
-const TREE: u8 = 3;
-
-/// Whether some cell of a chunk without the type may see it establish this year. The draw
-/// must fall below P(lambda) <= lambda <= seed rain x establishment per seed (suitability,
-/// light and free space are each at most 1; the fast exponential of
-/// [`establishment_probability`](crate::plants::establishment::establishment_probability) errs by
-/// far less than lambda), so where every draw is at least twice that bound the update
-/// leaves every cell empty and every sum as it was: skipping it changes no bit.
-fn may_establish(key: u32, first_cell: u32, rain: &[f32], per_seed: f32) -> bool {
-    let mut any = false;
-    for (i, &seeds) in rain.iter().enumerate() {
-        let uniform = hash_uniform(key ^ (first_cell + i as u32));
-        any |= uniform < 2.0 * seeds * per_seed;
-    }
-    any
-}
-
-/// Whether a type needs its update in a chunk: it is there, or the warmest cell is warm
-/// enough, the most developed soil developed enough and the gentlest slope flat enough.
-fn chunk_grows(
-    rates: &TypeRates,
-    occupied: bool,
-    max_temp_c: f32,
-    max_soil: f32,
-    min_slope_deg: f32,
-) -> bool {
-    let barren = max_temp_c < rates.min_temp_c
-        || max_soil < rates.min_soil
-        || min_slope_deg > rates.max_slope_deg;
-    occupied || !barren
-}
-
-/// Sum of a layer in f32 lanes, then f64 (lanes keep the loop vectorised).
-fn lane_sum(values: &[f32]) -> f64 {
-    let mut total = 0.0f64;
-    for chunk in values.chunks(4096) {
-        let mut lanes = [0.0f32; 16];
-        let mut blocks = chunk.chunks_exact(16);
-        for block in &mut blocks {
-            for (lane, &v) in lanes.iter_mut().zip(block) {
-                *lane += v;
-            }
-        }
-        let rest: f32 = blocks.remainder().iter().sum();
-        total += f64::from(lanes.iter().sum::<f32>() + rest);
-    }
-    total
-}
-
-/// Largest value of a chunk, in lanes so that it vectorises (comparisons, no `f32::max`).
-fn chunk_max(values: &[f32]) -> f32 {
-    let mut lanes = [f32::NEG_INFINITY; 16];
-    let mut blocks = values.chunks_exact(16);
-    for block in &mut blocks {
-        for (lane, &v) in lanes.iter_mut().zip(block) {
-            *lane = larger(*lane, v);
-        }
-    }
-    let rest = blocks
-        .remainder()
-        .iter()
-        .fold(f32::NEG_INFINITY, |a, &v| larger(a, v));
-    lanes.iter().fold(rest, |a, &v| larger(a, v))
-}
-
-/// Whether every value of a chunk is above zero.
-fn all_positive(values: &[f32]) -> bool {
-    values.iter().fold(true, |all, &v| all & (v > 0.0))
-}
-
-/// Largest negated value of a chunk: minus its smallest value.
-fn chunk_max_negated(values: &[f32]) -> f32 {
-    values.iter().fold(f32::NEG_INFINITY, |a, &v| larger(a, -v))
-}
-
-/// Key of one year's establishment draws of type `t`.
-fn draw_key(seed: u64, year: i32, t: usize) -> u32 {
-    let mixed =
-        seed ^ (u64::from(year as u32) << 8) ^ (t as u64).wrapping_mul(0xD6E8_FEB8_6659_FD93);
-    let folded = (mixed ^ (mixed >> 32)) as u32;
-    hash32(folded.wrapping_add(0x632B_E5AB))
-}
-
-/// A 32-bit integer hash with good avalanche ("lowbias32" of Wellons' hash prospector,
-/// 2018, from memory): two multiply-xorshift rounds.
-#[inline]
-fn hash32(x: u32) -> u32 {
-    let mut x = x;
-    x ^= x >> 16;
-    x = x.wrapping_mul(0x7FEB_352D);
-    x ^= x >> 15;
-    x = x.wrapping_mul(0x846C_A68B);
-    x ^= x >> 16;
-    x
-}
-
-/// A uniform number in [0, 1) from the hash of a counter; fine resolution near 0, where
-/// small establishment probabilities are compared.
-#[inline]
-fn hash_uniform(counter: u32) -> f32 {
-    (hash32(counter) >> 1) as i32 as f32 * (1.0 / 2_147_483_648.0)
 }
