@@ -28,3 +28,10 @@ export function keepForOffline() {
     console.warn(`This page will not be kept for offline use: ${error.message ?? error}`);
   });
 }
+
+/** The bytes of one of the page's files; a refusal from the server is an error. */
+export async function fetchBytes(path) {
+  const response = await fetch(fileUrl(path));
+  if (!response.ok) throw new Error(`the server answered ${response.status}`);
+  return new Uint8Array(await response.arrayBuffer());
+}

@@ -1,5 +1,5 @@
 // The zone panel: a planner's zone (GeoJSON polygons in the terrain's CRS) opened from a file,
-// dropped on the map (main.js asks what a dropped GeoJSON is) or drawn on it corner by corner, its key years and a table of every
+// dropped on the map (file_inputs.js asks what a dropped GeoJSON is) or drawn on it corner by corner, its key years and a table of every
 // tenth year (plus the year on the map) from the engine's zone timeline, the outline on the
 // map, and downloads of the zone (GeoJSON) and its timeline (CSV).
 
