@@ -2,10 +2,9 @@
 //! vegetation run (five default plant types) on the large sample valley, printed as JSON
 //! lines (medians over repeated runs, since shared machines are noisy).
 
-use std::path::PathBuf;
 use std::time::Instant;
 
-use anyhow::{bail, Context, Result};
+use anyhow::{Context, Result};
 use forefield_engine::coupled::CoupledSimulation;
 use forefield_engine::dispersal::{direct_convolution, Boundary, DispersalOperator, Kernel};
 use forefield_engine::geotiff::read_geotiff;
@@ -14,42 +13,32 @@ use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation};
 use forefield_engine::Grid;
 
+use crate::args::{BenchArgs, BenchPart};
+
 /// The scenario both the native and the wasm benchmark run (kept in step with bench.mjs).
 pub const BENCH_SCENARIO_JSON: &str = r#"{"version": 1, "name": "benchmark", "n_years": 200}"#;
-const DEFAULT_REPEATS: usize = 3;
+pub const DEFAULT_REPEATS: usize = 3;
 
-/// `--grids DIR` (default sample-grids/large), `--repeats N` (default 3),
-/// `--only ice|coupled|dispersal`.
-pub fn bench(args: &[String]) -> Result<()> {
-    let repeats = match crate::flag(args, "--repeats")? {
-        Some(s) => s
-            .parse::<usize>()
-            .ok()
-            .filter(|&n| n > 0)
-            .with_context(|| format!("--repeats {s:?} is not a whole number above 0"))?,
-        None => DEFAULT_REPEATS,
-    };
-    let only = crate::flag(args, "--only")?;
-    if let Some(only) = &only {
-        if !["ice", "coupled", "dispersal", "large_dem"].contains(&only.as_str()) {
-            bail!("--only {only:?}: give ice, coupled, dispersal or large_dem");
-        }
-    }
-    let wanted = |part: &str| only.as_deref().is_none_or(|o| o == part);
-    if wanted("dispersal") {
+/// Without `--only`, every part in turn.
+pub fn bench(args: BenchArgs) -> Result<()> {
+    let BenchArgs {
+        grids: dir,
+        repeats,
+        only,
+    } = args;
+    let wanted = |part: BenchPart| only.is_none_or(|o| o == part);
+    if wanted(BenchPart::Dispersal) {
         bench_dispersal(repeats)?;
         if only.is_some() {
             return Ok(());
         }
     }
-    if wanted("large_dem") {
+    if wanted(BenchPart::LargeDem) {
         bench_large_dem()?;
         if only.is_some() {
             return Ok(());
         }
     }
-    let dir =
-        PathBuf::from(crate::flag(args, "--grids")?.unwrap_or_else(|| "sample-grids/large".into()));
     let read = |name: &str| -> Result<_> {
         let path = dir.join(name);
         let bytes = std::fs::read(&path).with_context(|| format!("reading {}", path.display()))?;
@@ -59,10 +48,10 @@ pub fn bench(args: &[String]) -> Result<()> {
     let ice = read("valley_ice_thickness.tif")?;
     let bed = bed_from_surface(&surface, &ice)?;
     let scenario = Scenario::from_json(BENCH_SCENARIO_JSON)?;
-    if wanted("ice") {
+    if wanted(BenchPart::Ice) {
         bench_ice(&bed, &ice, &scenario, repeats)?;
     }
-    if wanted("coupled") {
+    if wanted(BenchPart::Coupled) {
         let stages = read("valley_vegetation.tif")?;
         bench_coupled(&bed, &ice, &stages, &scenario, repeats)?;
     }

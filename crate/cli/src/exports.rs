@@ -6,95 +6,49 @@ use std::path::Path;
 use std::time::Instant;
 
 use anyhow::{bail, Context, Result};
-use forefield_engine::export::csv_tables::{
-    cell_history_csv, column_word, CellsCsv, DEFAULT_CHUNK_ROWS,
-};
+use forefield_engine::export::csv_tables::{cell_history_csv, CellsCsv, DEFAULT_CHUNK_ROWS};
 use forefield_engine::export::geojson_shapes::{ice_outlines_geojson, stage_polygons_geojson};
 use forefield_engine::export::layer_geotiff::layer_geotiff;
 use forefield_engine::export::png_snapshot::snapshot_png;
 use forefield_engine::export::{bed_renderer, layer_file_stem, layer_kind, ExportMeta};
 use forefield_engine::grid::Grid;
 use forefield_engine::layers::LayerKind;
-use forefield_engine::pft::PlantType;
 use forefield_engine::timeline::Timeline;
 
-/// What to export: years, layers, formats and cells whose history to write.
-#[derive(Clone, Debug, Default)]
+/// What to export: years, layers, formats and cells whose history to write (the export
+/// options of `run` and `export`). The comma lists are read once the run's years and plant
+/// types are known.
+#[derive(Clone, Debug, Default, clap::Args)]
+#[command(next_help_heading = "Export options")]
 pub struct ExportRequest {
-    /// `None`: the last year.
+    /// Years to export, or `last` (default), `start`, `all`
+    #[arg(long, value_name = "Y,Y,...")]
     pub years: Option<String>,
-    /// `None`: ice thickness, and the succession stage for runs with plants.
+    /// ice_thickness, exposure_year, stage, cover:TYPE, soil, lakes, steep_bare,
+    /// glacier_domain, or `all` (default ice_thickness, and stage for runs with plants)
+    ///
+    /// TYPE is a plant type's name, as written in the scenario (quoted if it has
+    /// spaces) or with _ for spaces, or its place in the scenario's list counting
+    /// from 0; the default types are listed below.
+    #[arg(long, value_name = "L,L,...", verbatim_doc_comment)]
     pub layers: Option<String>,
-    /// `None`: every format.
+    /// png, tif, csv, geojson (default all four)
+    #[arg(long, value_name = "F,F,...")]
     pub formats: Option<String>,
+    /// Also write this cell's history as CSV (repeat for several cells)
+    #[arg(long = "cell", value_name = "COL,ROW", value_parser = crate::args::parse_cell)]
     pub cells: Vec<(usize, usize)>,
-    /// GeoJSON zone files whose timeline to write.
+    /// Also write the timeline of the zone's polygons (repeat for several zones)
+    ///
+    /// The polygons are in the terrain's CRS; the table is written as
+    /// zone_<file stem>_timeline.csv.
+    #[arg(long = "zone", value_name = "FILE.geojson", verbatim_doc_comment)]
     pub zones: Vec<String>,
 }
 
 pub const FORMATS: [&str; 4] = ["png", "tif", "csv", "geojson"];
 
-/// The export options' help, with the default plant types' layer names.
-pub fn export_options() -> String {
-    let types: String = PlantType::defaults()
-        .iter()
-        .enumerate()
-        .map(|(t, plant)| {
-            format!(
-                "\n                          cover:{} (or cover:{t})",
-                column_word(&plant.name)
-            )
-        })
-        .collect();
-    // No line-continuation backslash: it would eat the first line's indent.
-    format!(
-        "    --years Y,Y,...     years to export, or `last` (default), `start`, `all`
-    --layers L,L,...    ice_thickness, exposure_year, stage, cover:TYPE, soil, lakes,
-                        steep_bare, glacier_domain, or `all`
-                        (default ice_thickness, and stage for runs with plants)
-                        TYPE is a plant type's name, as written in the scenario (quoted if
-                        it has spaces) or with _ for spaces, or its place in the scenario's
-                        list counting from 0; the default types:{types}
-    --formats F,F,...   png, tif, csv, geojson (default all four)
-    --cell COL,ROW      also write this cell's history as CSV (repeat for several cells)
-    --zone FILE.geojson also write the timeline of the zone's polygons (in the terrain's CRS)
-                        as zone_<file stem>_timeline.csv (repeat for several zones)"
-    )
-}
-
 impl ExportRequest {
-    /// Takes an export option and its value, if `word` is one.
-    pub fn take_option<'a>(
-        &mut self,
-        word: &str,
-        words: &mut impl Iterator<Item = &'a String>,
-    ) -> Result<bool> {
-        let mut value = || -> Result<String> {
-            match words.next() {
-                Some(v) => Ok(v.clone()),
-                None => bail!("{word} needs a value"),
-            }
-        };
-        match word {
-            "--years" => self.years = Some(value()?),
-            "--layers" => self.layers = Some(value()?),
-            "--formats" => self.formats = Some(value()?),
-            "--zone" => self.zones.push(value()?),
-            "--cell" => {
-                let v = value()?;
-                let parsed = v
-                    .split_once(',')
-                    .and_then(|(c, r)| Some((c.trim().parse().ok()?, r.trim().parse().ok()?)));
-                match parsed {
-                    Some(cell) => self.cells.push(cell),
-                    None => bail!("--cell {v:?} is not COL,ROW"),
-                }
-            }
-            _ => return Ok(false),
-        }
-        Ok(true)
-    }
-
     fn years(&self, timeline: &Timeline) -> Result<Vec<i32>> {
         let (first, last) = (timeline.start_year(), timeline.last_year());
         let text = self.years.as_deref().unwrap_or("last");
@@ -272,7 +226,8 @@ fn write_cells_csv(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use forefield_engine::timeline::{TimelineRecorder, DEFAULT_FRAME_BUDGET_BYTES};
+    use forefield_engine::run::recorder::TimelineRecorder;
+    use forefield_engine::run::timeline::DEFAULT_FRAME_BUDGET_BYTES;
 
     fn ice_timeline() -> Timeline {
         let mut recorder =
@@ -305,10 +260,5 @@ mod tests {
         );
         request.formats = Some("png,kml".into());
         assert!(request.formats().is_err());
-        let words: Vec<String> = ["--cell", "3,4"].iter().map(|s| s.to_string()).collect();
-        let mut it = words.iter();
-        let first = it.next().unwrap();
-        assert!(request.take_option(first, &mut it).unwrap());
-        assert_eq!(request.cells, vec![(3, 4)]);
     }
 }

@@ -1,11 +1,10 @@
-//! `forefield run SCENARIO.json [--out DIR] [--vegetation STAGES.tif] [--ice-only] [export
-//! options]`: runs the coupled ice and plant model of a scenario file through the engine's
-//! recorded run (as the page's worker does) and writes the yearly summary (CSV), the
-//! timeline, the terrain it ran on, ice thickness for the scenario's output years and the
-//! last year's exposure years (GeoTIFF), and the exports asked for. Grid file names in the scenario are
-//! relative to the scenario file.
+//! `forefield run SCENARIO.json`: runs the coupled ice and plant model of a scenario file
+//! through the engine's recorded run (as the page's worker does) and writes the yearly
+//! summary (CSV), the timeline, the terrain it ran on, ice thickness for the scenario's output
+//! years and the last year's exposure years (GeoTIFF), and the exports asked for. Grid file
+//! names in the scenario are relative to the scenario file.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 use anyhow::{bail, Context, Result};
 use forefield_engine::export::csv_tables::summary_csv;
@@ -21,7 +20,8 @@ use forefield_engine::run_inputs::{fit_domain, fit_vegetation, read_run_inputs, 
 use forefield_engine::scenario::Scenario;
 use forefield_engine::simulation::{bed_from_surface, IceSimulation};
 
-use crate::exports::{export_options, write_exports, write_file, ExportRequest};
+use crate::args::RunArgs;
+use crate::exports::{write_exports, write_file};
 
 /// The last year's exposure years, as `layer_exposure_year_<last year>.tif`.
 pub const EXPOSURE_YEAR_FILE: &str = "exposure_year.tif";
@@ -34,60 +34,16 @@ pub const TIMELINE_FILE: &str = "timeline.fftl";
 pub const TERRAIN_FILE: &str = "terrain.tif";
 pub const SCENARIO_FILE: &str = "scenario.json";
 
-pub fn usage() -> String {
-    format!(
-        "forefield run SCENARIO.json [--out DIR] [--vegetation STAGES.tif] [--ice-only] [options]
-
-    --out DIR           output folder (default out)
-    --vegetation FILE   GeoTIFF of succession stage codes 0-6 to start the plants from
-                        (default: each cell starts at its potential vegetation)
-    --ice-only          run the ice model alone
-    --cell-size M       working cell size, m: the surface DEM is coarsened on load to the
-                        whole multiple of its cell nearest M (area mean); a DEM over the
-                        model's cell limit is coarsened to fit in any case
-{}",
-        export_options()
-    )
-}
-
-/// Entry point of the `run` subcommand; `args` are the words after `run`.
-pub fn run(args: &[String]) -> Result<()> {
-    let mut scenario_path: Option<PathBuf> = None;
-    let mut out_dir = PathBuf::from("out");
-    let mut vegetation: Option<PathBuf> = None;
-    let mut ice_only = false;
-    let mut cell_size_m: Option<f64> = None;
-    let mut request = ExportRequest::default();
-    let mut words = args.iter();
-    while let Some(word) = words.next() {
-        if request.take_option(word, &mut words)? {
-            continue;
-        }
-        match word.as_str() {
-            "--out" => match words.next() {
-                Some(dir) => out_dir = PathBuf::from(dir),
-                None => bail!("--out needs a folder"),
-            },
-            "--vegetation" => match words.next() {
-                Some(file) => vegetation = Some(PathBuf::from(file)),
-                None => bail!("--vegetation needs a GeoTIFF file"),
-            },
-            "--ice-only" => ice_only = true,
-            "--cell-size" => match words.next().map(|w| w.parse::<f64>()) {
-                Some(Ok(size)) if size.is_finite() && size > 0.0 => cell_size_m = Some(size),
-                _ => bail!("--cell-size needs a cell size in metres, e.g. --cell-size 10"),
-            },
-            flag if flag.starts_with("--") => bail!("run: unknown option {flag:?}\n\n{}", usage()),
-            path if scenario_path.is_none() => scenario_path = Some(PathBuf::from(path)),
-            extra => bail!("run: unexpected argument {extra:?}"),
-        }
-    }
-    let Some(scenario_path) = scenario_path else {
-        bail!("run needs a scenario file:\n\n{}", usage())
-    };
-    if ice_only && vegetation.is_some() {
-        bail!("--ice-only and --vegetation exclude each other");
-    }
+/// Entry point of the `run` subcommand.
+pub fn run(args: RunArgs) -> Result<()> {
+    let RunArgs {
+        scenario: scenario_path,
+        out: out_dir,
+        vegetation,
+        ice_only,
+        cell_size: cell_size_m,
+        export: request,
+    } = args;
     let text = std::fs::read_to_string(&scenario_path)
         .with_context(|| format!("reading {}", scenario_path.display()))?;
     let scenario = Scenario::from_json(&text)

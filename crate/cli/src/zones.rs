@@ -40,7 +40,8 @@ pub fn write_zone_timelines(
 mod tests {
     use super::*;
     use forefield_engine::grid::GridGeometry;
-    use forefield_engine::timeline::{TimelineRecorder, DEFAULT_FRAME_BUDGET_BYTES};
+    use forefield_engine::run::recorder::TimelineRecorder;
+    use forefield_engine::run::timeline::DEFAULT_FRAME_BUDGET_BYTES;
 
     #[test]
     fn writes_the_engine_table_under_the_zone_name_and_names_a_bad_file() {
