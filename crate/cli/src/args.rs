@@ -5,7 +5,7 @@ use std::path::PathBuf;
 
 use clap::{Args, CommandFactory, FromArgMatches, Parser, Subcommand, ValueEnum};
 use forefield_engine::export::column_word;
-use forefield_engine::pft::PlantType;
+use forefield_engine::plants::pft::PlantType;
 use forefield_engine::sample;
 
 use crate::exports::ExportRequest;

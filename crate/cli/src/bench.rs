@@ -5,12 +5,13 @@
 use std::time::Instant;
 
 use anyhow::{Context, Result};
-use forefield_engine::coupled::CoupledSimulation;
-use forefield_engine::dispersal::{direct_convolution, Boundary, DispersalOperator, Kernel};
-use forefield_engine::geotiff::read_geotiff;
-use forefield_engine::pft::PlantType;
-use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::{bed_from_surface, IceSimulation};
+use forefield_engine::io::geotiff::read_geotiff;
+use forefield_engine::plants::dispersal::{Boundary, DispersalOperator};
+use forefield_engine::plants::kernels::{direct_convolution, Kernel};
+use forefield_engine::plants::pft::PlantType;
+use forefield_engine::run::coupled::CoupledSimulation;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::simulation::{bed_from_surface, IceSimulation};
 use forefield_engine::Grid;
 
 use crate::args::{BenchArgs, BenchPart};
@@ -84,7 +85,7 @@ fn bench_large_dem() -> Result<()> {
         epsg: Some(32632),
     };
     // Smooth ridges with metre-scale roughness, as a LiDAR surface has.
-    let bytes = forefield_engine::geotiff::write_geotiff_rows(&geometry, 16, |row, values| {
+    let bytes = forefield_engine::io::geotiff::write_geotiff_rows(&geometry, 16, |row, values| {
         let y = row as f64;
         for (col, v) in values.iter_mut().enumerate() {
             let x = col as f64;
@@ -96,10 +97,10 @@ fn bench_large_dem() -> Result<()> {
     .map_err(|e| anyhow::anyhow!("{e}"))?;
     let before = peak_memory_bytes(true);
     let started = Instant::now();
-    let read = forefield_engine::geotiff::read_geotiff_with(
+    let read = forefield_engine::io::geotiff::read_geotiff_with(
         &bytes,
         "large.tif",
-        forefield_engine::geotiff::ReadOptions::default(),
+        forefield_engine::io::geotiff::ReadOptions::default(),
     )?;
     let seconds = started.elapsed().as_secs_f64();
     let peak = peak_memory_bytes(false);

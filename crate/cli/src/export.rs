@@ -4,9 +4,9 @@
 
 use anyhow::{Context, Result};
 use forefield_engine::export::{ExportMeta, CAUTION};
-use forefield_engine::geotiff::read_geotiff;
-use forefield_engine::scenario::Scenario;
-use forefield_engine::timeline::Timeline;
+use forefield_engine::io::geotiff::read_geotiff;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::timeline::Timeline;
 
 use crate::args::ExportArgs;
 use crate::exports::write_exports;

@@ -6,14 +6,14 @@ use std::path::Path;
 use std::time::Instant;
 
 use anyhow::{bail, Context, Result};
+use forefield_engine::base::grid::Grid;
 use forefield_engine::export::csv_tables::{cell_history_csv, CellsCsv, DEFAULT_CHUNK_ROWS};
 use forefield_engine::export::geojson_shapes::{ice_outlines_geojson, stage_polygons_geojson};
 use forefield_engine::export::layer_geotiff::layer_geotiff;
 use forefield_engine::export::png_snapshot::snapshot_png;
 use forefield_engine::export::{bed_renderer, layer_file_stem, layer_kind, ExportMeta};
-use forefield_engine::grid::Grid;
-use forefield_engine::layers::LayerKind;
-use forefield_engine::timeline::Timeline;
+use forefield_engine::run::timeline::Timeline;
+use forefield_engine::view::layers::LayerKind;
 
 /// What to export: years, layers, formats and cells whose history to write (the export
 /// options of `run` and `export`). The comma lists are read once the run's years and plant

@@ -25,7 +25,7 @@ use std::path::Path;
 use std::process::ExitCode;
 
 use anyhow::{Context, Result};
-use forefield_engine::geotiff::{
+use forefield_engine::io::geotiff::{
     read_geotiff, write_geotiff, write_geotiff_with, SampleType, TiffCompression, WriteOptions,
 };
 use forefield_engine::sample;
@@ -141,18 +141,18 @@ fn relief(dem_path: &Path, out_path: &Path) -> Result<()> {
     let (dem_name, out_name) = (dem_path.display().to_string(), out_path.display());
     let bytes = std::fs::read(dem_path).with_context(|| format!("reading {dem_name}"))?;
     let dem = read_geotiff(&bytes, &dem_name)?;
-    let (lo, hi) = forefield_engine::terrain::check_elevations(&dem, &dem_name)?;
-    let shade = forefield_engine::terrain::derivatives(&dem, Default::default()).hillshade;
+    let (lo, hi) = forefield_engine::base::terrain::check_elevations(&dem, &dem_name)?;
+    let shade = forefield_engine::base::terrain::derivatives(&dem, Default::default()).hillshade;
     let mut rgba = Vec::new();
-    forefield_engine::render::render_shaded(
+    forefield_engine::view::render::render_shaded(
         &dem,
         &shade,
-        forefield_engine::render::ELEVATION_RAMP,
+        forefield_engine::view::render::ELEVATION_RAMP,
         lo,
         hi,
         &mut rgba,
     );
-    let png = forefield_engine::render::encode_png(&rgba, dem.n_cols(), dem.n_rows())?;
+    let png = forefield_engine::view::render::encode_png(&rgba, dem.n_cols(), dem.n_rows())?;
     std::fs::write(out_path, png).with_context(|| format!("writing {out_name}"))?;
     outln!("wrote {out_name}");
     Ok(())

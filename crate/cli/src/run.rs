@@ -7,18 +7,18 @@
 use std::path::Path;
 
 use anyhow::{bail, Context, Result};
+use forefield_engine::base::grid::Grid;
 use forefield_engine::export::csv_tables::summary_csv;
 use forefield_engine::export::layer_geotiff::layer_geotiff;
 use forefield_engine::export::{ExportMeta, CAUTION};
-use forefield_engine::geotiff::{read_geotiff, write_geotiff, ReadOptions};
-use forefield_engine::grid::Grid;
-use forefield_engine::ice_outline::thickness_from_outline;
-use forefield_engine::layers::LayerKind;
-use forefield_engine::outline::outline_mask;
-use forefield_engine::recorded_run::RecordedRun;
-use forefield_engine::run_inputs::{fit_domain, fit_vegetation, read_run_inputs, IceInput};
-use forefield_engine::scenario::Scenario;
-use forefield_engine::simulation::{bed_from_surface, IceSimulation};
+use forefield_engine::ice::outline_thickness::thickness_from_outline;
+use forefield_engine::io::geotiff::{read_geotiff, write_geotiff, ReadOptions};
+use forefield_engine::io::outline::outline_mask;
+use forefield_engine::run::inputs::{fit_domain, fit_vegetation, read_run_inputs, IceInput};
+use forefield_engine::run::recorded::RecordedRun;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::simulation::{bed_from_surface, IceSimulation};
+use forefield_engine::view::layers::LayerKind;
 
 use crate::args::RunArgs;
 use crate::exports::{write_exports, write_file};

@@ -5,10 +5,10 @@ use std::path::Path;
 use std::time::Instant;
 
 use anyhow::{Context, Result};
+use forefield_engine::base::grid::Grid;
+use forefield_engine::export::zones::{zone_timeline_csv, Zone};
 use forefield_engine::export::ExportMeta;
-use forefield_engine::grid::Grid;
-use forefield_engine::timeline::Timeline;
-use forefield_engine::zones::{zone_timeline_csv, Zone};
+use forefield_engine::run::timeline::Timeline;
 
 /// Reads each zone file, rasterises it onto the terrain and writes its timeline into
 /// `out_dir`.
@@ -39,7 +39,7 @@ pub fn write_zone_timelines(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use forefield_engine::grid::GridGeometry;
+    use forefield_engine::base::grid::GridGeometry;
     use forefield_engine::run::recorder::TimelineRecorder;
     use forefield_engine::run::timeline::DEFAULT_FRAME_BUDGET_BYTES;
 

@@ -21,9 +21,6 @@ pub mod run;
 pub mod sample;
 pub mod view;
 
-// Former flat paths, kept while the front ends move to the layered ones.
-pub use base::{grid, load_error, terrain};
-pub use export::zones;
 pub use ice::{
     climate, ela_calibration, exposure, flow as ice_flow, glacier_domain, mass_balance,
     outline_thickness as ice_outline, snow_redistribution,

@@ -6,8 +6,10 @@ use std::io::Write;
 
 use flate2::write::ZlibEncoder;
 use flate2::Compression;
-use forefield_engine::geotiff::{read_geotiff, write_geotiff_with, TiffCompression, WriteOptions};
-use forefield_engine::grid::{Grid, GridGeometry};
+use forefield_engine::base::grid::{Grid, GridGeometry};
+use forefield_engine::io::geotiff::{
+    read_geotiff, write_geotiff_with, TiffCompression, WriteOptions,
+};
 
 const INFLATED_BYTES: usize = 1 << 30;
 

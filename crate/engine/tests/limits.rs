@@ -2,10 +2,10 @@
 //! claim is asked for, with a message naming the file and the limit; and a very detailed
 //! outline is handled in time proportional to its size.
 
-use forefield_engine::geotiff::{read_geotiff, MAX_SOURCE_CELLS};
-use forefield_engine::grid::GridGeometry;
-use forefield_engine::outline::outline_mask;
-use forefield_engine::scenario::{Scenario, MAX_YEARS};
+use forefield_engine::base::grid::GridGeometry;
+use forefield_engine::io::geotiff::{read_geotiff, MAX_SOURCE_CELLS};
+use forefield_engine::io::outline::outline_mask;
+use forefield_engine::run::scenario::{Scenario, MAX_YEARS};
 
 /// A little-endian TIFF whose header claims `width` x `height` float cells over 16 bytes of
 /// data (TIFF 6.0: a header, one IFD of 12-byte entries, then the strip).

@@ -7,15 +7,15 @@
 use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::path::{Path, PathBuf};
 
-use forefield_engine::geotiff::read_geotiff;
-use forefield_engine::grid::Grid;
-use forefield_engine::heightmap_png::read_heightmap_png;
-use forefield_engine::outline::read_outline;
-use forefield_engine::recorded_run::RecordedRun;
+use forefield_engine::base::grid::Grid;
+use forefield_engine::export::zones::Zone;
+use forefield_engine::io::geotiff::read_geotiff;
+use forefield_engine::io::heightmap_png::read_heightmap_png;
+use forefield_engine::io::outline::read_outline;
+use forefield_engine::run::recorded::RecordedRun;
+use forefield_engine::run::scenario::Scenario;
+use forefield_engine::run::timeline::Timeline;
 use forefield_engine::sample;
-use forefield_engine::scenario::Scenario;
-use forefield_engine::timeline::Timeline;
-use forefield_engine::zones::Zone;
 
 /// Inputs tried per seed file, on top of as many purely random ones.
 const MUTATIONS: usize = 3000;

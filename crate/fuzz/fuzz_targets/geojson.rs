@@ -3,9 +3,9 @@
 
 use std::sync::OnceLock;
 
-use forefield_engine::grid::{Grid, GridGeometry};
-use forefield_engine::outline::outline_mask;
-use forefield_engine::zones::Zone;
+use forefield_engine::base::grid::{Grid, GridGeometry};
+use forefield_engine::io::outline::outline_mask;
+use forefield_engine::export::zones::Zone;
 use libfuzzer_sys::fuzz_target;
 
 fn dem() -> &'static Grid {

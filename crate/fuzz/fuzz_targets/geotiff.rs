@@ -1,7 +1,7 @@
 //! The GeoTIFF reader, with and without coarsening on read.
 #![no_main]
 
-use forefield_engine::geotiff::{read_geotiff, read_geotiff_with, ReadOptions};
+use forefield_engine::io::geotiff::{read_geotiff, read_geotiff_with, ReadOptions};
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|bytes: &[u8]| {

@@ -2,7 +2,7 @@
 //! (times four) are sidecar text; the rest is the PNG.
 #![no_main]
 
-use forefield_engine::heightmap_png::read_heightmap_png;
+use forefield_engine::io::heightmap_png::read_heightmap_png;
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|bytes: &[u8]| {

@@ -1,7 +1,7 @@
 //! The recorded run's bytes (the timeline file the page and `forefield export` read).
 #![no_main]
 
-use forefield_engine::timeline::Timeline;
+use forefield_engine::run::timeline::Timeline;
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|bytes: &[u8]| {

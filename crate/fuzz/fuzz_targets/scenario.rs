@@ -1,7 +1,7 @@
 //! The scenario JSON, parsed and validated.
 #![no_main]
 
-use forefield_engine::scenario::Scenario;
+use forefield_engine::run::scenario::Scenario;
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|bytes: &[u8]| {

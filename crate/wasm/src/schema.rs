@@ -8,7 +8,7 @@
 //! first type.
 
 use forefield_engine::ice::mass_balance::DomainRule;
-use forefield_engine::plants::dispersal::KernelFamily;
+use forefield_engine::plants::kernels::KernelFamily;
 use forefield_engine::plants::pft::GrowthForm;
 use forefield_engine::plants::vegetation::SeedEdge;
 use forefield_engine::run::scenario::{Scenario, ScenarioError};

@@ -3,7 +3,7 @@
 //! (steepest descent to one of the eight neighbours; O'Callaghan & Mark 1984, Comput. Vision
 //! Graph. Image Process. 28:323-344) reaches either, so snow that falls on the glacier's own basin feeds it and high ground that
 //! drains elsewhere never grows ice of its own. A planner may give the domain instead, as a
-//! GeoTIFF mask or a GeoJSON outline (see `run_inputs`).
+//! GeoTIFF mask or a GeoJSON outline (see `run::inputs`).
 //!
 //! Ice may still flow out of the domain and advance; outside it the balance only melts.
 

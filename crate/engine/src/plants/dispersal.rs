@@ -13,8 +13,7 @@
 //! measured in the reference checks: below 0.5 % relative L1, a tenth of what block sums
 //! gave at the same level placement.
 
-// Former paths of the kernel items, kept while the front ends move to `kernels`.
-pub use crate::plants::kernels::{direct_convolution, direct_taps, Kernel, KernelFamily};
+use crate::plants::kernels::Kernel;
 
 /// A component is placed on the coarsest pyramid level where its standard deviation is at
 /// least this many level cells. With full-weighting transfers 1.25 keeps the error against

@@ -1,6 +1,6 @@
 //! The grids a run starts from, read from file bytes and fitted onto the terrain: the
 //! surface DEM, the ice (a thickness grid, or a glacier outline whose thickness is estimated
-//! by perfect plasticity, see `ice_outline`) and the existing vegetation. The page and the
+//! by perfect plasticity, see `ice::outline_thickness`) and the existing vegetation. The page and the
 //! command line both hand their files' bytes here, so they start runs from the same grids.
 
 use thiserror::Error;

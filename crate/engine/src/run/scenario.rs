@@ -30,7 +30,7 @@ pub use crate::params::{check_range, ScenarioError};
 /// Input grid file names; the command line resolves them relative to the scenario file.
 ///
 /// Allowed combinations: bed + thickness; surface + thickness (bed = surface - thickness);
-/// surface + glacier mask (thickness estimated from the surface slope, see `ice_outline`);
+/// surface + glacier mask (thickness estimated from the surface slope, see `ice::outline_thickness`);
 /// bed or surface alone (no ice at the start).
 #[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
