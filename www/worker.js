@@ -33,7 +33,11 @@ async function run({
   cancelRequested = false;
   let recorder = null;
   try {
-    ready ??= wasm_bindgen({ module_or_path: wasm });
+    // A failed start is not kept: the next run tries again.
+    ready ??= wasm_bindgen({ module_or_path: wasm }).catch((error) => {
+      ready = null;
+      throw error;
+    });
     await ready;
     // Without a vegetation grid the engine starts each ice-free cell at its potential
     // vegetation.
