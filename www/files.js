@@ -15,7 +15,7 @@ let wasmBytes = null;
  *  when the page carries it (a worker on file:// cannot read the page's blob: URLs). */
 export async function workerWasm() {
   if (!globalThis.forefieldFiles) return fileUrl(ENGINE_WASM);
-  wasmBytes ??= await (await fetch(fileUrl(ENGINE_WASM))).arrayBuffer();
+  wasmBytes ??= await fetchBytes(ENGINE_WASM);
   return wasmBytes;
 }
 

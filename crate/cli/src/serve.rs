@@ -116,7 +116,8 @@ fn percent_decode(text: &str) -> Option<String> {
     String::from_utf8(out).ok()
 }
 
-fn mime_type(path: &Path) -> &'static str {
+/// The Content-Type of a page file by its extension (the one-file page types its blobs so too).
+pub(crate) fn mime_type(path: &Path) -> &'static str {
     match path.extension().and_then(|e| e.to_str()).unwrap_or("") {
         "html" => "text/html; charset=utf-8",
         "js" | "mjs" => "text/javascript; charset=utf-8",

@@ -16,6 +16,8 @@ use base64::engine::general_purpose::STANDARD as BASE64;
 use base64::Engine as _;
 use sha2::{Digest, Sha256};
 
+use crate::serve::mime_type;
+
 /// The one-file page's start-up script, inlined and admitted by its hash.
 const BOOT: &str = include_str!("boot.js");
 
@@ -194,18 +196,6 @@ fn csp_hash(text: &str) -> String {
     format!("sha256-{}", BASE64.encode(Sha256::digest(text.as_bytes())))
 }
 
-fn mime(path: &str) -> &'static str {
-    match path.rsplit('.').next().unwrap_or("") {
-        "wasm" => "application/wasm",
-        "tif" | "tiff" => "image/tiff",
-        "json" => "application/json",
-        "geojson" => "application/geo+json",
-        "svg" => "image/svg+xml",
-        "png" => "image/png",
-        _ => "application/octet-stream",
-    }
-}
-
 /// The one-file page: index.html with its style sheet and icon inlined, its module script
 /// replaced by the carried files and the start-up, and the one-file policy.
 fn single_file(files: &BTreeMap<String, Vec<u8>>) -> Result<String> {
@@ -255,7 +245,7 @@ fn single_file(files: &BTreeMap<String, Vec<u8>>) -> Result<String> {
             Some("wasm" | "tif" | "tiff" | "json" | "geojson") => {
                 data.insert(
                     path.clone(),
-                    serde_json::json!([mime(path), BASE64.encode(bytes)]),
+                    serde_json::json!([mime_type(Path::new(path)), BASE64.encode(bytes)]),
                 );
             }
             _ => {}
